@@ -23,6 +23,7 @@ export default defineConfig({
 					environment: 'node',
 					include: ['tests/integration/**/*.test.ts'],
 					globalSetup: ['tests/support/global-db.ts'],
+					setupFiles: ['tests/support/setup-db.ts'],
 					fileParallelism: false,
 					testTimeout: 60_000,
 					hookTimeout: 120_000

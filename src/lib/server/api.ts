@@ -1,0 +1,57 @@
+import { json, type RequestEvent } from '@sveltejs/kit';
+import { ZodError } from 'zod';
+import type { Role } from '$lib/permissions';
+import { hasRole, type Actor } from './services/actor';
+import { ServiceError } from './services/errors';
+
+export interface ApiErrorBody {
+	error: { code: string; message: string; field?: string; [extra: string]: unknown };
+}
+
+/** The one error shape every /api/v1 route answers with. */
+export function apiError(status: number, code: string, message: string, field?: string, extra: Record<string, unknown> = {}) {
+	const body: ApiErrorBody = { error: { code, message, ...(field ? { field } : {}), ...extra } };
+	return json(body, { status });
+}
+
+export function errorResponse(error: unknown) {
+	if (error instanceof ServiceError) return apiError(error.status, error.code, error.message, error.field);
+	if (error instanceof ZodError) {
+		const issue = error.issues[0];
+		const field = issue?.path.join('.') || undefined;
+		return apiError(400, 'invalid', field ? `${field}: ${issue.message}` : (issue?.message ?? 'Invalid input'), field);
+	}
+	console.error(error);
+	return apiError(500, 'internal', 'An unexpected error occurred; it has been logged.');
+}
+
+/** Re-checks the caller inside the handler (the hook guards too): 401 without identity, 403 without a role. */
+export function requireActor(event: RequestEvent, ...roles: Role[]): Actor {
+	const actor = event.locals.actor;
+	if (!actor) throw new ServiceError(401, 'unauthenticated', 'Sign in, or send an instrument token');
+	if (roles.length && !hasRole(actor, ...roles)) {
+		throw new ServiceError(403, 'forbidden', `This needs one of the roles: ${roles.join(', ')}`);
+	}
+	return actor;
+}
+
+/** Wraps a handler so thrown ServiceError/ZodError become the shared error shape. */
+export function handler<E extends RequestEvent>(fn: (event: E) => Promise<Response>) {
+	return async (event: E) => {
+		try {
+			return await fn(event);
+		} catch (error) {
+			return errorResponse(error);
+		}
+	};
+}
+
+export async function readJson(request: Request): Promise<Record<string, unknown>> {
+	try {
+		const body = await request.json();
+		if (!body || typeof body !== 'object' || Array.isArray(body)) throw new Error('not an object');
+		return body as Record<string, unknown>;
+	} catch {
+		throw new ServiceError(400, 'invalid-json', 'The request body must be a JSON object');
+	}
+}

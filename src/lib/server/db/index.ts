@@ -1,0 +1,61 @@
+import pg from 'pg';
+import { Sequelize, Transaction } from 'sequelize';
+import { defineModels, type Models } from './models';
+
+let instance: { sequelize: Sequelize; models: Models } | null = null;
+
+/** The connection string; fails fast so a misconfigured server never starts half-working. */
+export function databaseUrl(): string {
+	const url = process.env.DATABASE_URL;
+	if (!url) throw new Error('DATABASE_URL is not set: point it at PostgreSQL, or use `npm start`, which starts the embedded one.');
+	return url;
+}
+
+function connect() {
+	if (!instance) {
+		const sequelize = new Sequelize(databaseUrl(), {
+			dialect: 'postgres',
+			dialectModule: pg,
+			logging: false,
+			pool: { max: Number(process.env.DB_POOL_MAX ?? 10), idle: 10_000 },
+			define: { underscored: true, timestamps: false }
+		});
+		instance = { sequelize, models: defineModels(sequelize) };
+	}
+	return instance;
+}
+
+export function sequelize(): Sequelize {
+	return connect().sequelize;
+}
+
+export function models(): Models {
+	return connect().models;
+}
+
+/** One unit of work: every service mutation and its audit event commit or roll back together. */
+export function transaction<T>(work: (tx: Transaction) => Promise<T>): Promise<T> {
+	return sequelize().transaction(work);
+}
+
+export async function closeDatabase() {
+	if (instance) {
+		await instance.sequelize.close();
+		instance = null;
+	}
+}
+
+let lastHealthy = 0;
+/** Cheap liveness probe, cached for a few seconds, used to answer 503 when the database is down. */
+export async function databaseIsUp(): Promise<boolean> {
+	if (Date.now() - lastHealthy < 5000) return true;
+	try {
+		await sequelize().query('SELECT 1');
+		lastHealthy = Date.now();
+		return true;
+	} catch {
+		return false;
+	}
+}
+
+export type { Transaction };

@@ -1,0 +1,13 @@
+import type { Sequelize } from 'sequelize';
+import foundation from './001-foundation';
+import methodDevelopment from './002-method-development';
+import lots from './003-lots';
+
+export interface Migration {
+	name: string;
+	up(sequelize: Sequelize): Promise<void>;
+	down(sequelize: Sequelize): Promise<void>;
+}
+
+// Append new migrations at the end; never edit one that has shipped.
+export const migrations: Migration[] = [foundation, methodDevelopment, lots];

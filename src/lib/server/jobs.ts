@@ -1,0 +1,60 @@
+// Background work (model builds, certificates, mail) runs as pg-boss jobs, so more workers can join one PostgreSQL.
+import PgBoss from 'pg-boss';
+import { databaseUrl } from './db';
+
+export type JobHandler = (data: Record<string, unknown>, job: { id: string }) => Promise<void>;
+
+let instance: Promise<PgBoss> | null = null;
+const handlers = new Map<string, { handler: JobHandler; retryLimit: number }>();
+let working = false;
+
+async function boss(): Promise<PgBoss> {
+	if (!instance) {
+		instance = (async () => {
+			const b = new PgBoss({ connectionString: databaseUrl(), schema: 'pgboss', max: 4 });
+			b.on('error', (error) => console.error('[jobs]', error));
+			await b.start();
+			return b;
+		})();
+	}
+	return instance;
+}
+
+/** Each workflow declares its queue once (at module load), with its retry policy. */
+export function defineQueue(name: string, handler: JobHandler, { retryLimit = 0 } = {}) {
+	handlers.set(name, { handler, retryLimit });
+	if (working) void work(name);
+}
+
+async function work(name: string) {
+	const b = await boss();
+	const entry = handlers.get(name)!;
+	await b.createQueue(name, { name, retryLimit: entry.retryLimit, retryDelay: 5, retryBackoff: true });
+	await b.work(name, { pollingIntervalSeconds: 0.5, batchSize: 1 }, async (jobs) => {
+		for (const job of jobs) await entry.handler(job.data as Record<string, unknown>, { id: job.id });
+	});
+}
+
+export async function enqueue(name: string, data: Record<string, unknown>, options: PgBoss.SendOptions = {}): Promise<string> {
+	const b = await boss();
+	const entry = handlers.get(name);
+	await b.createQueue(name, { name, retryLimit: entry?.retryLimit ?? 0, retryDelay: 5, retryBackoff: true });
+	const id = await b.send(name, data, options);
+	if (!id) throw new Error(`pg-boss refused the job for queue ${name}`);
+	return id;
+}
+
+/** Starts workers for every declared queue (the app server does this at start-up). */
+export async function startWorkers() {
+	working = true;
+	for (const name of handlers.keys()) await work(name);
+}
+
+export async function stopJobs() {
+	if (instance) {
+		const b = await instance;
+		instance = null;
+		working = false;
+		await b.stop({ graceful: true, timeout: 5000 });
+	}
+}

@@ -1,0 +1,2 @@
+// Every module that declares a pg-boss queue is imported here, so the server starts all workers.
+export {};

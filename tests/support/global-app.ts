@@ -1,0 +1,59 @@
+// Browser tests: the built app on a loopback port against its own fresh, seeded database.
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import { resolve } from 'node:path';
+import type { TestProject } from 'vitest/node';
+import { ensureDatabase, projectRoot, startCluster } from '../../scripts/lib/postgres';
+
+let app: ChildProcess | null = null;
+
+export default async function setup(project: TestProject) {
+	const cluster = await startCluster();
+	const url = await ensureDatabase(cluster, 'lotgate_e2e', { fresh: true });
+	const port = Number(process.env.LOTGATE_E2E_PORT ?? 3107);
+	const env = {
+		...process.env,
+		DATABASE_URL: url,
+		AUTH_SECRET: 'e2e-test-secret',
+		LOTGATE_DEMO: '1',
+		LOTGATE_TEST: '1',
+		PORT: String(port),
+		HOST: '127.0.0.1'
+	};
+	Object.assign(process.env, { DATABASE_URL: url });
+	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');
+	const { migrate } = await import('../../src/lib/server/db/migrate');
+	const { seedDemo } = await import('../../src/lib/server/demo/seed');
+	await migrate(sequelize(), { quiet: true });
+	await seedDemo(() => {});
+	await closeDatabase();
+
+	if (process.env.LOTGATE_E2E_SKIP_BUILD !== '1') {
+		const build = spawnSync('npx', ['vite', 'build', '--logLevel', 'error'], { cwd: projectRoot, stdio: 'inherit', env });
+		if (build.status !== 0) throw new Error('vite build failed');
+	}
+	const services = await import('../../scripts/lib/services');
+	const mail = await services.startMailFake(env);
+	app = spawn(process.execPath, [resolve(projectRoot, 'build/index.js')], { cwd: projectRoot, env, stdio: ['ignore', 'inherit', 'inherit'] });
+	const baseUrl = `http://127.0.0.1:${port}`;
+	await waitFor(`${baseUrl}/login`);
+	project.provide('baseUrl', baseUrl);
+	project.provide('databaseUrl', url);
+	return async () => {
+		app?.kill('SIGTERM');
+		await mail?.close();
+	};
+}
+
+async function waitFor(url: string, timeoutMs = 60_000) {
+	const until = Date.now() + timeoutMs;
+	while (Date.now() < until) {
+		try {
+			const res = await fetch(url);
+			if (res.status < 500) return;
+		} catch {
+			/* not listening yet */
+		}
+		await new Promise((r) => setTimeout(r, 250));
+	}
+	throw new Error(`the app did not answer at ${url}`);
+}

@@ -1,0 +1,21 @@
+// Integration tests: the real PostgreSQL on loopback, a fresh database per run, migrations applied.
+import type { TestProject } from 'vitest/node';
+import { ensureDatabase, startCluster } from '../../scripts/lib/postgres';
+
+export default async function setup(project: TestProject) {
+	const cluster = await startCluster();
+	const url = await ensureDatabase(cluster, 'lotgate_test', { fresh: true });
+	process.env.DATABASE_URL = url;
+	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');
+	const { migrate } = await import('../../src/lib/server/db/migrate');
+	await migrate(sequelize(), { quiet: true });
+	await closeDatabase();
+	project.provide('databaseUrl', url);
+}
+
+declare module 'vitest' {
+	export interface ProvidedContext {
+		databaseUrl: string;
+		baseUrl: string;
+	}
+}
