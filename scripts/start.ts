@@ -15,7 +15,9 @@ const env: NodeJS.ProcessEnv = {
 	AUTH_SECRET: authSecret(),
 	LOTGATE_DEMO: demo ? '1' : '0',
 	PORT: String(port),
-	HOST: process.env.HOST ?? '127.0.0.1'
+	HOST: process.env.HOST ?? '127.0.0.1',
+	// adapter-node assumes https without ORIGIN, which would refuse every form post on plain local http.
+	ORIGIN: process.env.ORIGIN ?? `http://127.0.0.1:${port}`
 };
 Object.assign(process.env, env);
 

@@ -22,6 +22,18 @@ const requestId: Handle = async ({ event, resolve }) => {
 	return response;
 };
 
+const FORM_TYPES = ['application/x-www-form-urlencoded', 'multipart/form-data', 'text/plain'];
+const crossSiteForms: Handle = async ({ event, resolve }) => {
+	const { request, url } = event;
+	const origin = request.headers.get('origin');
+	const type = request.headers.get('content-type')?.split(';')[0].trim().toLowerCase() ?? '';
+	if (request.method !== 'GET' && request.method !== 'HEAD' && origin && origin !== url.origin && FORM_TYPES.includes(type)) {
+		const message = `Form submissions from another site (${origin}) are refused`;
+		return isApi(url.pathname) ? apiError(403, 'cross-site', message) : plainPage(403, 'Not allowed', message, event.locals.requestId);
+	}
+	return resolve(event);
+};
+
 const databaseHealth: Handle = async ({ event, resolve }) => {
 	if (event.url.pathname.startsWith('/_app/') || (await databaseIsUp())) return resolve(event);
 	const message = 'The Lotgate database is not reachable right now. Nothing was changed. Try again in a minute, or tell your admin.';
@@ -68,7 +80,7 @@ const roleGuard: Handle = async ({ event, resolve }) => {
 	return resolve(event);
 };
 
-export const handle: Handle = sequence(requestId, databaseHealth, authHandle, identity, roleGuard);
+export const handle: Handle = sequence(requestId, crossSiteForms, databaseHealth, authHandle, identity, roleGuard);
 
 export const handleError: HandleServerError = ({ error, event, status }) => {
 	if (status !== 404) console.error(`[${event.locals.requestId}]`, error);

@@ -1,7 +1,4 @@
-// Debian's Chromium driven by playwright-core; never a downloaded browser.
-import { mkdtempSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+// Debian's Chromium driven by playwright-core; never a downloaded browser. launch() gives each run a fresh temporary profile.
 import { chromium, type Browser, type BrowserContext, type Page } from 'playwright-core';
 import { inject } from 'vitest';
 
@@ -19,21 +16,29 @@ export async function launchBrowser(): Promise<Browser> {
 			'--no-first-run',
 			'--disable-background-networking',
 			'--disable-component-update',
-			'--disable-sync',
-			`--user-data-dir=${mkdtempSync(join(tmpdir(), 'lotgate-chromium-'))}`
+			'--disable-sync'
 		]
 	});
 }
 
 export async function newContext(browser: Browser): Promise<BrowserContext> {
-	return browser.newContext({ baseURL: baseUrl(), viewport: { width: 1280, height: 800 } });
+	const context = await browser.newContext({ baseURL: baseUrl(), viewport: { width: 1280, height: 800 } });
+	// Fail fast with a clear locator error rather than running into the test timeout.
+	context.setDefaultTimeout(15_000);
+	return context;
 }
 
 export async function signIn(page: Page, email: string, password = DEMO_PASSWORD) {
 	await page.goto('/login');
 	await page.getByLabel('E-mail').fill(email);
 	await page.getByLabel('Password').fill(password);
-	await Promise.all([page.waitForURL((url) => !url.pathname.startsWith('/login') || url.search.includes('error'), { timeout: 15_000 }).catch(() => {}), page.getByRole('button', { name: 'Sign in' }).click()]);
+	const posted = page.waitForResponse((r) => r.request().method() === 'POST' && new URL(r.url()).pathname === '/login');
+	await page.getByRole('button', { name: 'Sign in' }).click();
+	const response = await posted;
+	const body = await response.text().catch(() => '');
+	// A successful sign-in answers with a redirect for the client router; wait for it to land.
+	if (body.includes('"type":"redirect"')) await page.waitForURL((url) => !url.pathname.startsWith('/login'));
+	else await page.getByTestId('login-error').waitFor();
 }
 
 /** Signs in through the real form and returns the cookie header, for API calls from tests. */

@@ -17,7 +17,8 @@ export default async function setup(project: TestProject) {
 		LOTGATE_DEMO: '1',
 		LOTGATE_TEST: '1',
 		PORT: String(port),
-		HOST: '127.0.0.1'
+		HOST: '127.0.0.1',
+		ORIGIN: `http://127.0.0.1:${port}`
 	};
 	Object.assign(process.env, { DATABASE_URL: url });
 	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');

@@ -2,6 +2,7 @@ import { fail, isRedirect, redirect } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
+import { CredentialsSignin } from '@auth/sveltekit';
 import { signIn } from '$lib/server/auth';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -43,6 +44,12 @@ export const actions = {
 		try {
 			await signIn({ ...event, request });
 		} catch (thrown) {
+			// Auth.js throws the provider's CredentialsSignin (with our reason code) when the check fails.
+			if (thrown instanceof CredentialsSignin) {
+				form.data.password = '';
+				const code = thrown.code in FAILURE_TEXT ? thrown.code : 'wrong-credentials';
+				return message(form, FAILURE_TEXT[code], { status: code === 'locked' ? 423 : 401 });
+			}
 			if (isRedirect(thrown)) {
 				const location = new URL(thrown.location, event.url);
 				if (location.searchParams.has('error')) {

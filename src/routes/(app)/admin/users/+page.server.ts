@@ -1,0 +1,67 @@
+import { fail } from '@sveltejs/kit';
+import { message, superValidate } from 'sveltekit-superforms';
+import { zod } from 'sveltekit-superforms/adapters';
+import { z } from 'zod';
+import { ROLES, type Role } from '$lib/server/db/models';
+import { requireUser } from '$lib/server/guard';
+import { ServiceError } from '$lib/server/services/errors';
+import * as users from '$lib/server/services/users';
+import type { Actions, PageServerLoad } from './$types';
+
+const reason = z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500);
+const rolesSchema = z.object({ userId: z.coerce.number().int(), roles: z.array(z.enum(ROLES as [Role, ...Role[]])).min(1, 'Keep at least one role'), reason });
+const passwordSchema = z.object({ userId: z.coerce.number().int(), password: users.passwordSchema, reason });
+const activeSchema = z.object({ userId: z.coerce.number().int(), active: z.enum(['true', 'false']), reason });
+
+export const load = (async (event) => {
+	const actor = requireUser(event, 'admin');
+	return {
+		users: await users.list(actor),
+		roles: ROLES,
+		createForm: await superValidate(zod(users.newUserSchema), { id: 'create-user' })
+	};
+}) satisfies PageServerLoad;
+
+/** Runs a row action; a refusal comes back beside that row. */
+async function rowAction<T extends z.ZodTypeAny>(request: Request, schema: T, run: (data: z.infer<T>) => Promise<unknown>) {
+	const form = await superValidate(request, zod(schema));
+	if (!form.valid) return fail(400, { rowForm: form });
+	try {
+		await run(form.data);
+	} catch (error) {
+		if (error instanceof ServiceError) return message(form, error.message, { status: error.status === 403 ? 403 : 400 });
+		throw error;
+	}
+	return message(form, 'Saved');
+}
+
+export const actions = {
+	create: async (event) => {
+		const actor = requireUser(event, 'admin');
+		const form = await superValidate(event.request, zod(users.newUserSchema), { id: 'create-user' });
+		if (!form.valid) return fail(400, { createForm: form });
+		try {
+			const created = await users.create(actor, form.data);
+			form.data.password = '';
+			return message(form, `Created ${created.name} (${created.email})`);
+		} catch (error) {
+			if (error instanceof ServiceError && error.field) {
+				form.errors[error.field as 'email'] = [error.message];
+				return fail(error.status, { createForm: form });
+			}
+			throw error;
+		}
+	},
+	roles: async (event) => {
+		const actor = requireUser(event, 'admin');
+		return rowAction(event.request, rolesSchema, (d) => users.setRoles(actor, d.userId, d.roles, d.reason));
+	},
+	password: async (event) => {
+		const actor = requireUser(event, 'admin');
+		return rowAction(event.request, passwordSchema, (d) => users.resetPassword(actor, d.userId, d.password, d.reason));
+	},
+	active: async (event) => {
+		const actor = requireUser(event, 'admin');
+		return rowAction(event.request, activeSchema, (d) => users.setActive(actor, d.userId, d.active === 'true', d.reason));
+	}
+} satisfies Actions;

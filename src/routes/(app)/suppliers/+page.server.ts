@@ -1,0 +1,51 @@
+import { fail } from '@sveltejs/kit';
+import { message, superValidate } from 'sveltekit-superforms';
+import { zod } from 'sveltekit-superforms/adapters';
+import { z } from 'zod';
+import { hasRole } from '$lib/server/services/actor';
+import { requireUser } from '$lib/server/guard';
+import { ServiceError } from '$lib/server/services/errors';
+import * as suppliers from '$lib/server/services/suppliers';
+import type { Actions, PageServerLoad } from './$types';
+
+// The form takes contacts as one comma-separated field.
+const createSchema = suppliers.supplierSchema.extend({
+	contacts: z
+		.string()
+		.default('')
+		.transform((s) => s.split(/[,;\s]+/).filter(Boolean))
+		.pipe(z.array(z.string().email('Each contact must be an e-mail address')))
+});
+
+export const load = (async (event) => {
+	const actor = requireUser(event);
+	const q = event.url.searchParams;
+	const page = Math.max(1, Number(q.get('page') ?? 1) || 1);
+	const sort = q.get('sort') ?? 'code';
+	const status = q.get('status') ?? '';
+	const search = q.get('q') ?? '';
+	return {
+		result: await suppliers.list({ page, sort, status: status || undefined, q: search || undefined, pageSize: 25 }),
+		filters: { sort, status, q: search },
+		canManage: hasRole(actor, 'procurement', 'admin'),
+		form: await superValidate(zod(createSchema))
+	};
+}) satisfies PageServerLoad;
+
+export const actions = {
+	create: async (event) => {
+		const actor = requireUser(event, 'procurement', 'admin');
+		const form = await superValidate(event.request, zod(createSchema));
+		if (!form.valid) return fail(400, { form });
+		try {
+			const created = await suppliers.create(actor, form.data);
+			return message(form, `Added ${created.code} · ${created.name}`);
+		} catch (error) {
+			if (error instanceof ServiceError && error.field) {
+				form.errors[error.field as 'code'] = [error.message];
+				return fail(error.status, { form });
+			}
+			throw error;
+		}
+	}
+} satisfies Actions;

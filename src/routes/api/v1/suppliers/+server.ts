@@ -1,0 +1,17 @@
+import { json } from '@sveltejs/kit';
+import { handler, readJson, requireActor } from '$lib/server/api';
+import * as suppliers from '$lib/server/services/suppliers';
+import type { RequestHandler } from './$types';
+
+export const GET: RequestHandler = handler(async (event) => {
+	requireActor(event);
+	const q = event.url.searchParams;
+	return json(await suppliers.list({ q: q.get('q') ?? undefined, status: q.get('status') ?? undefined, page: Number(q.get('page') ?? 1), sort: q.get('sort') ?? undefined }));
+});
+
+export const POST: RequestHandler = handler(async (event) => {
+	const actor = requireActor(event, 'procurement', 'admin');
+	const body = await readJson(event.request);
+	const created = await suppliers.create(actor, suppliers.supplierSchema.parse(body), typeof body.reason === 'string' ? body.reason : undefined);
+	return json(created, { status: 201 });
+});
