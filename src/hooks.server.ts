@@ -4,9 +4,9 @@ import { randomUUID } from 'node:crypto';
 import { mayEnter } from '$lib/permissions';
 import { apiError } from '$lib/server/api';
 import { authHandle } from '$lib/server/auth';
-import { databaseIsUp, models } from '$lib/server/db';
+import { closeDatabase, databaseIsUp, models } from '$lib/server/db';
 import { plainPage } from '$lib/server/plain-page';
-import { startWorkers } from '$lib/server/jobs';
+import { startWorkers, stopJobs } from '$lib/server/jobs';
 import { instrumentForToken } from '$lib/server/tokens';
 
 const PUBLIC_PREFIXES = ['/login', '/auth/', '/health', '/_app/', '/favicon'];
@@ -93,5 +93,16 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 export const init: ServerInit = async () => {
 	// Queues are declared by their workflow modules; importing them registers their workers.
 	await import('$lib/server/workers');
-	await startWorkers();
+	// In the background, retrying: the server must come up (and answer 503) even while the database is down.
+	const start = () =>
+		startWorkers().catch((error) => {
+			console.error('[jobs] workers not started, retrying in 10 s:', error.message);
+			setTimeout(start, 10_000).unref();
+		});
+	void start();
+	// adapter-node's graceful shutdown: release the job workers and the pool so the process can exit.
+	process.once('sveltekit:shutdown' as never, async () => {
+		await stopJobs().catch(() => {});
+		await closeDatabase().catch(() => {});
+	});
 };

@@ -1,7 +1,8 @@
-import { spawnSync } from 'node:child_process';
+import { spawn, spawnSync } from 'node:child_process';
 import pg from 'pg';
 import type { Browser } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
+import { stopProcess } from '../support/global-app';
 import { baseUrl, DEMO_PASSWORD, launchBrowser, newContext, sessionCookie, signIn } from '../support/browser';
 
 let browser: Browser;
@@ -112,6 +113,39 @@ describe('sign-in and roles', () => {
 		expect(response?.status()).toBe(404);
 		await expect(page.locator('h1').textContent()).resolves.toContain('Not found');
 		await context.close();
+	});
+});
+
+describe('request safety', () => {
+	it('refuses a form post from another site', async () => {
+		const res = await fetch(`${baseUrl()}/login`, {
+			method: 'POST',
+			headers: { origin: 'http://elsewhere.example', 'content-type': 'application/x-www-form-urlencoded' },
+			body: 'email=qa%40demo.test&password=x'
+		});
+		expect(res.status).toBe(403);
+	});
+
+	it('answers 503 with a clear page when the database is down', async () => {
+		const port = 3199;
+		const app = spawn(process.execPath, ['build/index.js'], {
+			env: { ...process.env, DATABASE_URL: 'postgresql://lotgate@127.0.0.1:1/nowhere', AUTH_SECRET: 'x', PORT: String(port), HOST: '127.0.0.1', ORIGIN: `http://127.0.0.1:${port}` },
+			stdio: 'ignore'
+		});
+		try {
+			let res: Response | null = null;
+			for (let i = 0; i < 80 && !res; i++) {
+				res = await fetch(`http://127.0.0.1:${port}/login`).catch(() => null);
+				if (!res) await new Promise((r) => setTimeout(r, 250));
+			}
+			expect(res?.status).toBe(503);
+			expect(await res!.text()).toContain('database is not reachable');
+			const api = await fetch(`http://127.0.0.1:${port}/api/v1/lots`);
+			expect(api.status).toBe(503);
+			expect((await api.json()).error.code).toBe('database-unavailable');
+		} finally {
+			await stopProcess(app);
+		}
 	});
 });
 

@@ -40,9 +40,19 @@ export default async function setup(project: TestProject) {
 	project.provide('baseUrl', baseUrl);
 	project.provide('databaseUrl', url);
 	return async () => {
-		app?.kill('SIGTERM');
+		await stopProcess(app);
 		await mail?.close();
 	};
+}
+
+/** SIGTERM, then SIGKILL if the server has not exited within a few seconds. */
+export async function stopProcess(child: ChildProcess | null, graceMs = 5000) {
+	if (!child || child.exitCode !== null) return;
+	const exited = new Promise<void>((r) => child.once('exit', () => r()));
+	child.kill('SIGTERM');
+	const timer = setTimeout(() => child.kill('SIGKILL'), graceMs);
+	await exited;
+	clearTimeout(timer);
 }
 
 async function waitFor(url: string, timeoutMs = 60_000) {

@@ -16,6 +16,10 @@ async function boss(): Promise<PgBoss> {
 			await b.start();
 			return b;
 		})();
+		// A failed start must not be cached: the next call tries again.
+		instance.catch(() => {
+			instance = null;
+		});
 	}
 	return instance;
 }
