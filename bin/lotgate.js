@@ -1,2 +1,7 @@
 #!/usr/bin/env node
-console.log("hi", process.argv.slice(2));
+// Runs the TypeScript command line directly through tsx: no build step, no server.
+import { register } from 'tsx/esm/api';
+
+register();
+const { main } = await import('../src/lib/cli/main.ts');
+process.exitCode = await main(process.argv.slice(2));

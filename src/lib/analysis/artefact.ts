@@ -1,0 +1,188 @@
+import canonicalize from 'canonicalize';
+import { AnalysisError } from './errors';
+import { isAxisUnit, type ModelAxis } from './axis';
+import { parseRecipe, type FittedRowStep } from './preprocess/recipe';
+import type { ScalingMode } from './preprocess/scaling';
+import type { SpeMethod } from './limits/spe';
+import type { DofEstimator } from './limits/ddsimca';
+
+export const SCHEMA_VERSION = 1;
+export const ENGINE_VERSION = '1.0.0';
+
+export interface DistanceSet {
+	h: number[];
+	v: number[];
+	c: number[];
+}
+
+export interface ModelJson {
+	name: string;
+	kind: 'family' | 'genuine' | 'suspect';
+	/** Training objects. */
+	n: number;
+	/** Components used (A). */
+	components: number;
+	/** How A was set: 'auto' (ekf PRESS rule) or 'fixed'. */
+	componentsRule: 'auto' | 'fixed';
+	maxComponents: number;
+	/** λ_1..λ_Amax (all computed), n − 1 divisor. */
+	eigenvalues: number[];
+	/** λ_a / total variance, a = 1..Amax. */
+	explainedVariance: number[];
+	cumulative: number[];
+	totalVariance: number;
+	scaling: ScalingMode;
+	mean: number[];
+	scale: number[];
+	/** A rows of p loadings. */
+	loadings: number[][];
+	alpha: number;
+	gamma: number;
+	/** Which training distances the DD-SIMCA and moment SPE limits came from. */
+	limitsFrom: 'cv' | 'training';
+	estimator: DofEstimator;
+	h0: number;
+	v0: number;
+	nh: number;
+	nq: number;
+	cCrit: number;
+	cOutlier: number;
+	limits: {
+		t2Limit: number;
+		t2LimitTraining: number;
+		speLimit: number;
+		speMethod: SpeMethod;
+		spe: { 'jackson-mudholkar': number | null; box: number; moments: number };
+		theta: [number, number, number];
+	};
+	/** ekf PRESS for A = 0..Amax. */
+	cvPress: number[];
+	suggestedComponents: number;
+	folds: number;
+	foldsGrouped: boolean;
+	/** Share of training objects whose cross-validated c exceeds c_crit (compare with alpha). */
+	cvFalseRejectRate: number;
+	/** Same with the fitted (training) distances. */
+	trainingFalseRejectRate: number;
+	training: {
+		ids: string[];
+		fitted: DistanceSet;
+		cv: DistanceSet;
+		/** First (up to) three scores of each training object. */
+		scores: number[][];
+	};
+}
+
+export interface ModelArtefact {
+	schemaVersion: number;
+	engineVersion: string;
+	meta: Record<string, string>;
+	axis: ModelAxis;
+	recipe: string;
+	preprocess: { fitted: FittedRowStep[] };
+	genuine: string | null;
+	classes: string[];
+	options: { alpha: number; familyAlpha: number; gamma: number; limits: 'cv' | 'training'; folds: number; speLimit: SpeMethod; estimator: DofEstimator };
+	family: ModelJson;
+	models: Record<string, ModelJson>;
+	/** Mean and s.d. (n − 1) of each class's resampled, un-preprocessed spectra on the model axis. */
+	classSpectra: Record<string, { n: number; mean: number[]; sd: number[] }>;
+}
+
+/** Deep copy with non-finite numbers as null (JSON has no NaN/Infinity) and typed arrays as arrays. */
+function plain(value: unknown): unknown {
+	if (typeof value === 'number') return Number.isFinite(value) ? value : null;
+	if (ArrayBuffer.isView(value)) return Array.from(value as unknown as ArrayLike<number>, (x) => (Number.isFinite(x) ? x : null));
+	if (Array.isArray(value)) return value.map(plain);
+	if (value && typeof value === 'object') {
+		const out: Record<string, unknown> = {};
+		for (const [k, v] of Object.entries(value)) if (v !== undefined) out[k] = plain(v);
+		return out;
+	}
+	return value;
+}
+
+/** Canonical JSON (RFC 8785 key order and number form): the same artefact always gives the same bytes. */
+export function serializeArtefact(a: ModelArtefact): string {
+	const text = canonicalize(plain(a));
+	if (text === undefined) throw new AnalysisError('bad-artefact', 'artefact cannot be serialised');
+	return text;
+}
+
+const fail = (msg: string): never => {
+	throw new AnalysisError('bad-artefact', `model artefact: ${msg}`);
+};
+
+function num(x: unknown, where: string, allowNull = false): number {
+	if (x === null && allowNull) return Number.NaN;
+	if (typeof x !== 'number' || !Number.isFinite(x)) return fail(`${where} must be a finite number`);
+	return x;
+}
+
+function numArray(x: unknown, where: string, length?: number, allowNull = false): number[] {
+	if (!Array.isArray(x)) return fail(`${where} must be an array`);
+	if (length !== undefined && x.length !== length) fail(`${where} has ${x.length} values, expected ${length}`);
+	return x.map((v, i) => num(v, `${where}[${i}]`, allowNull));
+}
+
+function checkModel(m: unknown, where: string, p: number): ModelJson {
+	if (!m || typeof m !== 'object') return fail(`${where} is missing`);
+	const o = m as Record<string, unknown>;
+	if (typeof o.name !== 'string') fail(`${where}.name must be a string`);
+	if (o.kind !== 'family' && o.kind !== 'genuine' && o.kind !== 'suspect') fail(`${where}.kind must be family, genuine or suspect`);
+	const A = num(o.components, `${where}.components`);
+	if (!Number.isInteger(A) || A < 1 || A > p) fail(`${where}.components must be an integer in 1..${p}`);
+	numArray(o.mean, `${where}.mean`, p);
+	const scale = numArray(o.scale, `${where}.scale`, p);
+	if (scale.some((s) => !(s > 0))) fail(`${where}.scale must be positive`);
+	const ev = numArray(o.eigenvalues, `${where}.eigenvalues`);
+	if (ev.length < A || ev.slice(0, A).some((l) => !(l > 0))) fail(`${where}.eigenvalues must hold ${A} positive values`);
+	if (!Array.isArray(o.loadings) || o.loadings.length !== A) fail(`${where}.loadings must have ${A} rows`);
+	(o.loadings as unknown[]).forEach((row, a) => numArray(row, `${where}.loadings[${a}]`, p));
+	for (const k of ['h0', 'v0', 'nh', 'nq', 'cCrit', 'cOutlier', 'alpha'] as const) num(o[k], `${where}.${k}`);
+	if (!o.limits || typeof o.limits !== 'object') fail(`${where}.limits is missing`);
+	const lim = o.limits as Record<string, unknown>;
+	num(lim.t2Limit, `${where}.limits.t2Limit`);
+	num(lim.speLimit, `${where}.limits.speLimit`, true);
+	return m as ModelJson;
+}
+
+/** Parses and validates an artefact; throws AnalysisError naming the first problem. */
+export function parseArtefact(text: string): ModelArtefact {
+	let raw: unknown;
+	try {
+		raw = JSON.parse(text);
+	} catch (e) {
+		return fail(`not valid JSON (${(e as Error).message})`);
+	}
+	return validateArtefact(raw);
+}
+
+export function validateArtefact(raw: unknown): ModelArtefact {
+	if (!raw || typeof raw !== 'object' || Array.isArray(raw)) return fail('must be a JSON object');
+	const o = raw as Record<string, unknown>;
+	if (o.schemaVersion !== SCHEMA_VERSION) fail(`schemaVersion ${String(o.schemaVersion)} is not supported (this engine reads ${SCHEMA_VERSION})`);
+	const axis = o.axis as Record<string, unknown> | undefined;
+	if (!axis || typeof axis !== 'object') fail('axis is missing');
+	if (!isAxisUnit(axis!.unit)) fail('axis.unit must be nm, cm-1 or um');
+	const x = numArray(axis!.x, 'axis.x');
+	const p = x.length;
+	if (p < 2 || num(axis!.points, 'axis.points') !== p) fail('axis.points must equal the length of axis.x (≥ 2)');
+	for (let i = 1; i < p; i++) if (!(x[i] > x[i - 1])) fail('axis.x must be strictly ascending');
+	if (typeof o.recipe !== 'string') fail('recipe must be a string');
+	try {
+		parseRecipe(o.recipe as string);
+	} catch (e) {
+		fail(`recipe: ${(e as Error).message}`);
+	}
+	const pre = o.preprocess as { fitted?: unknown } | undefined;
+	if (!pre || !Array.isArray(pre.fitted)) fail('preprocess.fitted must be an array');
+	checkModel(o.family, 'family', p);
+	if (!Array.isArray(o.classes) || o.classes.some((c) => typeof c !== 'string')) fail('classes must be an array of names');
+	const models = (o.models ?? {}) as Record<string, unknown>;
+	for (const c of o.classes as string[]) checkModel(models[c], `models["${c}"]`, p);
+	if (o.genuine !== null && !(o.classes as string[]).includes(o.genuine as string)) fail(`genuine class "${String(o.genuine)}" is not among the classes`);
+	if ((o.classes as string[]).length > 0 && o.genuine === null) fail('a class model set needs a genuine class');
+	if (typeof o.meta !== 'object' || o.meta === null) fail('meta must be an object');
+	return raw as ModelArtefact;
+}

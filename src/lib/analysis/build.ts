@@ -1,0 +1,332 @@
+import { AnalysisError } from './errors';
+import { defaultAxis, resampleOnto, restrictAxis, type AxisUnit } from './axis';
+import { fitRowSteps, formatRecipe, maxGapOf, parseRecipe, rangeOf, rowSteps, scalingMode } from './preprocess/recipe';
+import { fitScaling, type ScalingMode } from './preprocess/scaling';
+import { gramRows, pca, residualMoments } from './pca';
+import { crossValidate, foldLayout, smallestFold, suggestComponents } from './crossval';
+import { t2LimitNew, t2LimitTraining } from './limits/hotelling';
+import { speBox, speJacksonMudholkar, speMoments, SPE_METHODS, type SpeMethod } from './limits/spe';
+import { cCritical, cOutlier, ddStatistic, estimateDof, type DofEstimator } from './limits/ddsimca';
+import { ENGINE_VERSION, SCHEMA_VERSION, type DistanceSet, type ModelArtefact, type ModelJson } from './artefact';
+
+export interface SpectrumInput {
+	id: string;
+	axis: ArrayLike<number>;
+	values: ArrayLike<number>;
+	unit: AxisUnit;
+}
+
+export interface TrainingSpectrum extends SpectrumInput {
+	className?: string | null;
+	group?: string | null;
+}
+
+export interface BuildProgress {
+	stage: 'preprocess' | 'family' | 'class' | 'limits' | 'done';
+	model: string;
+	fold?: number;
+	folds?: number;
+	done: number;
+	total: number;
+	message: string;
+}
+
+export interface BuildOptions {
+	recipe?: string;
+	components?: number | 'auto';
+	familyComponents?: number | 'auto';
+	maxComponents?: number;
+	alpha?: number;
+	familyAlpha?: number;
+	gamma?: number;
+	limits?: 'cv' | 'training';
+	folds?: number;
+	speLimit?: SpeMethod;
+	/** DD-SIMCA degrees-of-freedom estimator; default 'moments'. */
+	estimator?: DofEstimator;
+	genuine?: string;
+	axis?: { from: number; to: number; unit: AxisUnit; step?: number };
+	meta?: Record<string, string>;
+	onProgress?: (p: BuildProgress) => void;
+}
+
+/** Training-size rule: a model with A components needs at least max(10, A + 3) objects. */
+export function minimumTrainingSize(A: number): number {
+	return Math.max(10, A + 3);
+}
+
+function checkProbability(name: string, x: number): void {
+	if (!(typeof x === 'number' && x > 0 && x < 1)) throw new AnalysisError('bad-option', `${name} must be in (0, 1), got ${x}`);
+}
+
+interface ModelConfig {
+	name: string;
+	kind: ModelJson['kind'];
+	components: number | 'auto';
+	maxComponents?: number;
+	alpha: number;
+	gamma: number;
+	limits: 'cv' | 'training';
+	folds: number;
+	speLimit: SpeMethod;
+	estimator: DofEstimator;
+	mode: ScalingMode;
+	progress: (fold: number, folds: number) => void;
+}
+
+function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | undefined)[] | null, cfg: ModelConfig): ModelJson {
+	const n = rows.length;
+	const p = rows[0].length;
+	const label = cfg.kind === 'family' ? 'family model' : `class "${cfg.name}"`;
+	const fixed = cfg.components === 'auto' ? null : cfg.components;
+	if (fixed !== null && !(Number.isInteger(fixed) && fixed >= 1))
+		throw new AnalysisError('bad-components', `components must be a positive integer or "auto", got ${String(cfg.components)}`);
+	const need = minimumTrainingSize(fixed ?? 1);
+	if (n < need) throw new AnalysisError('too-few', `${label} has ${n} training spectra, needs at least ${need} (max(10, A + 3))`);
+	const layout = foldLayout(n, cfg.folds, groups);
+	const cap = Math.min(n - 3, p - 1, smallestFold(layout, n) - 1);
+	if (fixed !== null && fixed > cap)
+		throw new AnalysisError('bad-components', `${label}: ${fixed} components need more data (at most ${cap} with ${n} spectra, ${p} points, ${layout.K} folds)`);
+	let Amax = Math.min(cfg.maxComponents ?? 15, cap);
+	if (fixed !== null) Amax = Math.max(Amax, fixed);
+	if (Amax < 1) throw new AnalysisError('too-few', `${label}: not enough data for even one component`);
+
+	const sc = fitScaling(rows, cfg.mode);
+	const Z = new Float64Array(n * p);
+	for (let i = 0; i < n; i++) {
+		const x = rows[i];
+		for (let j = 0; j < p; j++) Z[i * p + j] = (x[j] - sc.mean[j]) / sc.scale[j];
+	}
+	const Zm = { data: Z, rows: n, cols: p };
+	const gram = n <= p ? gramRows(Zm) : null;
+	const full = pca(Zm, Amax, { gram: gram ?? undefined });
+	const cv = crossValidate(rows, Zm, gram, cfg.mode, layout, Amax, cfg.progress);
+	const suggested = suggestComponents(cv.press);
+	const A = fixed ?? suggested;
+	const W = Amax + 1;
+
+	const fitted: DistanceSet = { h: [], v: [], c: [] };
+	const cvd: DistanceSet = { h: [], v: [], c: [] };
+	const scores: number[][] = [];
+	const e = new Float64Array(p);
+	for (let i = 0; i < n; i++) {
+		let h = 0;
+		e.set(Z.subarray(i * p, (i + 1) * p));
+		for (let a = 0; a < A; a++) {
+			const t = full.scores[i * Amax + a];
+			h += (t * t) / full.eigenvalues[a];
+			for (let j = 0; j < p; j++) e[j] -= t * full.loadings[a * p + j];
+		}
+		let v = 0;
+		for (let j = 0; j < p; j++) v += e[j] * e[j];
+		fitted.h.push(h);
+		fitted.v.push(v);
+		cvd.h.push(cv.h[i * W + A]);
+		cvd.v.push(cv.v[i * W + A]);
+		scores.push(Array.from({ length: Math.min(3, Amax) }, (_, a) => full.scores[i * Amax + a]));
+	}
+	// training-fit distances are too small for new samples, so limits come from CV distances by default
+	const basis = cfg.limits === 'cv' ? cvd : fitted;
+	const hp = estimateDof(basis.h, cfg.estimator);
+	const vp = estimateDof(basis.v, cfg.estimator);
+	const par = { h0: hp.x0, v0: vp.x0, nh: hp.dof, nq: vp.dof };
+	const dof = par.nh + par.nq;
+	const cCrit = cCritical(dof, cfg.alpha);
+	const cOut = cOutlier(dof, cfg.gamma, n);
+	let cvRejected = 0;
+	let fitRejected = 0;
+	for (let i = 0; i < n; i++) {
+		const cf = ddStatistic(fitted.h[i], fitted.v[i], par);
+		const cc = ddStatistic(cvd.h[i], cvd.v[i], par);
+		fitted.c.push(cf);
+		cvd.c.push(cc);
+		if (cf > cCrit) fitRejected++;
+		if (cc > cCrit) cvRejected++;
+	}
+	const th = residualMoments(full, A);
+	const speAll = {
+		'jackson-mudholkar': speJacksonMudholkar(th.theta1, th.theta2, th.theta3, cfg.alpha),
+		box: speBox(th.theta1, th.theta2, cfg.alpha),
+		moments: speMoments(basis.v, cfg.alpha)
+	};
+	const eigenvalues = Array.from(full.eigenvalues);
+	const explainedVariance = eigenvalues.map((l) => l / full.totalVariance);
+	let cum = 0;
+	const cumulative = explainedVariance.map((x) => (cum += x));
+	return {
+		name: cfg.name,
+		kind: cfg.kind,
+		n,
+		components: A,
+		componentsRule: fixed === null ? 'auto' : 'fixed',
+		maxComponents: Amax,
+		eigenvalues,
+		explainedVariance,
+		cumulative,
+		totalVariance: full.totalVariance,
+		scaling: cfg.mode,
+		mean: Array.from(sc.mean),
+		scale: Array.from(sc.scale),
+		loadings: Array.from({ length: A }, (_, a) => Array.from(full.loadings.subarray(a * p, (a + 1) * p))),
+		alpha: cfg.alpha,
+		gamma: cfg.gamma,
+		limitsFrom: cfg.limits,
+		estimator: cfg.estimator,
+		h0: par.h0,
+		v0: par.v0,
+		nh: par.nh,
+		nq: par.nq,
+		cCrit,
+		cOutlier: cOut,
+		limits: {
+			t2Limit: t2LimitNew(n, A, cfg.alpha),
+			t2LimitTraining: t2LimitTraining(n, A, cfg.alpha),
+			speLimit: speAll[cfg.speLimit],
+			speMethod: cfg.speLimit,
+			spe: { ...speAll, 'jackson-mudholkar': Number.isFinite(speAll['jackson-mudholkar']) ? speAll['jackson-mudholkar'] : null },
+			theta: [th.theta1, th.theta2, th.theta3]
+		},
+		cvPress: Array.from(cv.press),
+		suggestedComponents: suggested,
+		folds: layout.K,
+		foldsGrouped: layout.grouped,
+		cvFalseRejectRate: cvRejected / n,
+		trainingFalseRejectRate: fitRejected / n,
+		training: { ids, fitted, cv: cvd, scores }
+	};
+}
+
+/** Builds the family model and one class model per class from labelled training spectra. */
+export function buildModel(training: TrainingSpectrum[], options: BuildOptions = {}): ModelArtefact {
+	const {
+		recipe = 'center',
+		components = 'auto',
+		familyComponents = 'auto',
+		maxComponents,
+		alpha = 0.05,
+		familyAlpha = 0.01,
+		gamma = 0.01,
+		limits = 'cv',
+		folds = 7,
+		speLimit = 'moments',
+		estimator = 'moments',
+		meta = {},
+		onProgress
+	} = options;
+	checkProbability('alpha', alpha);
+	checkProbability('familyAlpha', familyAlpha);
+	checkProbability('gamma', gamma);
+	if (limits !== 'cv' && limits !== 'training') throw new AnalysisError('bad-option', `limits must be "cv" or "training", got ${String(limits)}`);
+	if (!SPE_METHODS.includes(speLimit)) throw new AnalysisError('bad-option', `speLimit must be one of ${SPE_METHODS.join(', ')}, got ${String(speLimit)}`);
+	if (estimator !== 'moments' && estimator !== 'robust') throw new AnalysisError('bad-option', `estimator must be "moments" or "robust", got ${String(estimator)}`);
+	if (maxComponents !== undefined && !(Number.isInteger(maxComponents) && maxComponents >= 1))
+		throw new AnalysisError('bad-option', `maxComponents must be a positive integer, got ${maxComponents}`);
+	if (!Array.isArray(training) || training.length === 0) throw new AnalysisError('no-training', 'no training spectra');
+
+	const ids = training.map((s) => String(s.id));
+	const seen = new Set<string>();
+	for (const id of ids) {
+		if (seen.has(id)) throw new AnalysisError('duplicate-id', `training spectrum id "${id}" occurs more than once`);
+		seen.add(id);
+	}
+	const steps = parseRecipe(recipe);
+	let axis = defaultAxis(training, options.axis);
+	const range = rangeOf(steps);
+	if (range) axis = restrictAxis(axis, range.from, range.to);
+	const maxGap = maxGapOf(steps);
+	const report = (p: Omit<BuildProgress, 'done' | 'total'>, done: number, total: number) => onProgress?.({ ...p, done, total });
+
+	const labels = training.map((s) => (s.className === null || s.className === undefined || s.className === '' ? null : String(s.className)));
+	const unlabelled = labels.filter((l) => l === null).length;
+	if (unlabelled > 0 && unlabelled < labels.length)
+		throw new AnalysisError('missing-class', `${unlabelled} training spectra have no class (first: "${ids[labels.indexOf(null)]}"); label every spectrum or none`);
+	const classes: string[] = [];
+	for (const l of labels) if (l !== null && !classes.includes(l)) classes.push(l);
+	let genuine: string | null = null;
+	if (classes.length > 0) {
+		if (options.genuine !== undefined) {
+			if (!classes.includes(options.genuine)) throw new AnalysisError('bad-genuine', `genuine class "${options.genuine}" is not among the classes (${classes.join(', ')})`);
+			genuine = options.genuine;
+		} else if (classes.includes('genuine')) genuine = 'genuine';
+		else if (classes.length === 1) genuine = classes[0];
+		else throw new AnalysisError('bad-genuine', `several classes (${classes.join(', ')}) and none is named "genuine": name the genuine class`);
+	}
+	const fixedA = components === 'auto' ? 1 : components;
+	for (const c of classes) {
+		const count = labels.filter((l) => l === c).length;
+		const need = minimumTrainingSize(typeof fixedA === 'number' ? fixedA : 1);
+		if (count < need) throw new AnalysisError('too-few', `class "${c}" has ${count} training spectra, needs at least ${need} (max(10, A + 3))`);
+	}
+
+	const total = 2 + 1 + classes.length;
+	report({ stage: 'preprocess', model: '', message: `resampling ${training.length} spectra onto ${axis.points} points` }, 0, total);
+	const resampled = training.map((s, i) => {
+		const r = resampleOnto(s, axis, { maxGap });
+		if (!r.ok) throw new AnalysisError(r.code, `training spectrum "${ids[i]}": ${r.reason}`);
+		return r.values;
+	});
+	const rowFit = fitRowSteps(rowSteps(steps), resampled, axis.x, ids);
+	for (let i = 0; i < rowFit.rows.length; i++) {
+		const r = rowFit.rows[i];
+		for (let j = 0; j < r.length; j++)
+			if (!Number.isFinite(r[j])) throw new AnalysisError('non-finite', `training spectrum "${ids[i]}" is not finite after preprocessing at point ${j}`);
+	}
+	const mode = scalingMode(steps);
+	const groups = training.map((s) => s.group ?? null);
+	const hasGroups = groups.some((g) => g !== null && g !== '');
+	const base = { maxComponents, gamma, limits, folds, speLimit, estimator, mode };
+
+	report({ stage: 'family', model: 'family', message: 'family model' }, 1, total);
+	const family = fitModel(rowFit.rows, ids, hasGroups ? groups : null, {
+		...base,
+		name: 'family',
+		kind: 'family',
+		components: familyComponents,
+		alpha: familyAlpha,
+		progress: (fold, nf) => report({ stage: 'family', model: 'family', fold, folds: nf, message: `family model, fold ${fold}/${nf}` }, 1, total)
+	});
+	const models: Record<string, ModelJson> = {};
+	const classSpectra: ModelArtefact['classSpectra'] = {};
+	classes.forEach((c, k) => {
+		const idx = labels.flatMap((l, i) => (l === c ? [i] : []));
+		report({ stage: 'class', model: c, message: `class model "${c}"` }, 2 + k, total);
+		models[c] = fitModel(
+			idx.map((i) => rowFit.rows[i]),
+			idx.map((i) => ids[i]),
+			hasGroups ? idx.map((i) => groups[i]) : null,
+			{
+				...base,
+				name: c,
+				kind: c === genuine ? 'genuine' : 'suspect',
+				components,
+				alpha,
+				progress: (fold, nf) => report({ stage: 'class', model: c, fold, folds: nf, message: `class model "${c}", fold ${fold}/${nf}` }, 2 + k, total)
+			}
+		);
+		const p = axis.points;
+		const mean = new Float64Array(p);
+		const sd = new Float64Array(p);
+		for (const i of idx) for (let j = 0; j < p; j++) mean[j] += resampled[i][j];
+		for (let j = 0; j < p; j++) mean[j] /= idx.length;
+		for (const i of idx) for (let j = 0; j < p; j++) sd[j] += (resampled[i][j] - mean[j]) ** 2;
+		for (let j = 0; j < p; j++) sd[j] = Math.sqrt(sd[j] / (idx.length - 1));
+		classSpectra[c] = { n: idx.length, mean: Array.from(mean), sd: Array.from(sd) };
+	});
+	report({ stage: 'done', model: '', message: 'model built' }, total, total);
+	const sortedMeta: Record<string, string> = {};
+	for (const k of Object.keys(meta).sort()) sortedMeta[k] = String(meta[k]);
+	return {
+		schemaVersion: SCHEMA_VERSION,
+		engineVersion: ENGINE_VERSION,
+		meta: sortedMeta,
+		axis,
+		recipe: formatRecipe(steps),
+		preprocess: { fitted: rowFit.fitted },
+		genuine,
+		classes,
+		options: { alpha, familyAlpha, gamma, limits, folds, speLimit, estimator },
+		family,
+		models,
+		classSpectra
+	};
+}

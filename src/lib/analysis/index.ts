@@ -1,0 +1,24 @@
+// Public surface of the analysis engine (pure TypeScript: no database, no Svelte, no file system).
+export { AnalysisError } from './errors';
+export type { AxisUnit, ModelAxis, ResampleOutcome } from './axis';
+export { convertAxis, convertAxisValue, resampleOnto, defaultAxis, uniformAxis } from './axis';
+export type { SpectrumInput, TrainingSpectrum, BuildProgress, BuildOptions } from './build';
+export { buildModel, minimumTrainingSize } from './build';
+export type { RecipeStep } from './preprocess/recipe';
+export { parseRecipe, formatRecipe } from './preprocess/recipe';
+export type { ModelStats } from './projection';
+export type { Verdict, Decision } from './classify';
+export { decide } from './classify';
+export type { ScreenResult, PreparedArtefact } from './screen';
+export { screen, prepareArtefact } from './screen';
+export type { ModelArtefact, ModelJson, DistanceSet } from './artefact';
+export { serializeArtefact, parseArtefact, SCHEMA_VERSION, ENGINE_VERSION } from './artefact';
+export type { ValidationReport, ClassPerformance, Interval } from './metrics';
+export { evaluate, clopperPearson, mcc } from './metrics';
+export { pca } from './pca';
+export type { PcaFit } from './pca';
+export { t2LimitNew, t2LimitTraining } from './limits/hotelling';
+export { speJacksonMudholkar, speBox, speMoments } from './limits/spe';
+export type { SpeMethod } from './limits/spe';
+export { dofMoments, dofRobust, cCritical, cOutlier, ddStatistic } from './limits/ddsimca';
+export type { DofEstimator } from './limits/ddsimca';

@@ -1,0 +1,15 @@
+// jstat ships no types; only the distribution functions the engine uses are declared.
+declare module 'jstat' {
+	interface ContinuousDistribution {
+		inv(p: number, ...params: number[]): number;
+		cdf(x: number, ...params: number[]): number;
+	}
+	const jStat: {
+		centralF: ContinuousDistribution;
+		chisquare: ContinuousDistribution;
+		normal: ContinuousDistribution;
+		beta: ContinuousDistribution;
+		percentile(values: number[], k: number, exclusive?: boolean): number;
+	};
+	export default jStat;
+}

@@ -1,0 +1,45 @@
+import jStat from 'jstat';
+import { AnalysisError } from './errors';
+
+// Every distribution quantile goes through jstat; nothing here is hand-rolled.
+
+function checkP(p: number): void {
+	if (!(p > 0 && p < 1)) throw new AnalysisError('bad-probability', `probability must be in (0, 1), got ${p}`);
+}
+
+/** F quantile F_p(d1, d2). */
+export function fInv(p: number, d1: number, d2: number): number {
+	checkP(p);
+	return jStat.centralF.inv(p, d1, d2);
+}
+
+/** Chi-square quantile χ²_p(df); df need not be an integer. */
+export function chi2Inv(p: number, df: number): number {
+	checkP(p);
+	return jStat.chisquare.inv(p, df);
+}
+
+export function chi2Cdf(x: number, df: number): number {
+	return jStat.chisquare.cdf(x, df);
+}
+
+/** Standard normal quantile z_p. */
+export function normalInv(p: number): number {
+	checkP(p);
+	return jStat.normal.inv(p, 0, 1);
+}
+
+/** Beta quantile B_p(a, b). */
+export function betaInv(p: number, a: number, b: number): number {
+	checkP(p);
+	return jStat.beta.inv(p, a, b);
+}
+
+/** Sample quantile with linear interpolation between order statistics (R type 7), via jstat. */
+export function sampleQuantile(values: ArrayLike<number>, p: number): number {
+	return jStat.percentile(Array.from(values), p);
+}
+
+export function median(values: ArrayLike<number>): number {
+	return sampleQuantile(values, 0.5);
+}

@@ -1,0 +1,307 @@
+import { readFileSync, writeFileSync } from 'node:fs';
+import { basename, extname } from 'node:path';
+import { createHash } from 'node:crypto';
+import { parseArgs } from 'node:util';
+import {
+	AnalysisError,
+	buildModel,
+	parseArtefact,
+	prepareArtefact,
+	screen,
+	serializeArtefact,
+	type AxisUnit,
+	type BuildOptions,
+	type ModelStats,
+	type ScreenResult,
+	type SpectrumInput,
+	type TrainingSpectrum
+} from '../analysis';
+import { CliError, readSpectraCsv } from './csv';
+
+export interface CliIo {
+	stdout: (text: string) => void;
+	stderr: (text: string) => void;
+}
+
+const defaultIo: CliIo = {
+	stdout: (t) => process.stdout.write(t),
+	stderr: (t) => process.stderr.write(t)
+};
+
+const USAGE = `lotgate: build and apply spectral identity models from files
+
+  lotgate build --train FILE.csv [--class-column NAME] [--id-column NAME] [--genuine NAME]
+                [--recipe STEPS] [--components N|auto] [--family-components N|auto]
+                [--alpha 0.05] [--family-alpha 0.01] [--gamma 0.01] [--limits cv|training]
+                [--folds 7] [--group-column NAME] [--spe-limit jackson-mudholkar|box|moments]
+                [--estimator moments|robust] [--max-components N] [--unit nm|cm-1|um]
+                [--meta KEY=VALUE ...] --out MODEL.json
+  lotgate screen --model MODEL.json --input FILE.csv|FILE.jdx [--input ...] [--json] [--unit nm|cm-1|um]
+
+CSV: one spectrum per row; columns whose header is a number form the axis (nm unless --unit);
+the id column defaults to the first non-numeric column. Recipe steps: range(a,b), gaps(n), snv,
+msc, savgol(window,polyorder,deriv), detrend(order), center, autoscale (see docs/methods.md).
+`;
+
+function readText(file: string, what: string): string {
+	try {
+		return readFileSync(file, 'utf8');
+	} catch (e) {
+		throw new CliError(`${file}: cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+	}
+}
+
+function unitOf(v: string | undefined): AxisUnit {
+	if (v === undefined) return 'nm';
+	if (v === 'nm' || v === 'cm-1' || v === 'um') return v;
+	throw new CliError(`--unit must be nm, cm-1 or um, got "${v}"`);
+}
+
+function numberOpt(name: string, v: string | undefined): number | undefined {
+	if (v === undefined) return undefined;
+	const x = Number(v);
+	if (v.trim() === '' || !Number.isFinite(x)) throw new CliError(`--${name} must be a number, got "${v}"`);
+	return x;
+}
+
+function componentsOpt(name: string, v: string | undefined): number | 'auto' {
+	if (v === undefined || v === 'auto') return 'auto';
+	const x = Number(v);
+	if (!Number.isInteger(x) || x < 1) throw new CliError(`--${name} must be a positive integer or "auto", got "${v}"`);
+	return x;
+}
+
+function oneOf<T extends string>(name: string, v: string | undefined, allowed: readonly T[]): T | undefined {
+	if (v === undefined) return undefined;
+	if (!(allowed as readonly string[]).includes(v)) throw new CliError(`--${name} must be one of ${allowed.join(', ')}, got "${v}"`);
+	return v as T;
+}
+
+function runBuild(args: string[], io: CliIo): number {
+	const { values } = parseArgs({
+		args,
+		strict: true,
+		options: {
+			train: { type: 'string' },
+			'class-column': { type: 'string' },
+			'id-column': { type: 'string' },
+			genuine: { type: 'string' },
+			recipe: { type: 'string' },
+			components: { type: 'string' },
+			'family-components': { type: 'string' },
+			'max-components': { type: 'string' },
+			alpha: { type: 'string' },
+			'family-alpha': { type: 'string' },
+			gamma: { type: 'string' },
+			limits: { type: 'string' },
+			folds: { type: 'string' },
+			'group-column': { type: 'string' },
+			'spe-limit': { type: 'string' },
+			estimator: { type: 'string' },
+			unit: { type: 'string' },
+			meta: { type: 'string', multiple: true },
+			out: { type: 'string' }
+		}
+	});
+	if (!values.train) throw new CliError('build needs --train FILE.csv');
+	if (!values.out) throw new CliError('build needs --out MODEL.json');
+	const file = values.train;
+	const classCol = values['class-column'];
+	const groupCol = values['group-column'];
+	const table = readSpectraCsv(readText(file, 'the training file'), file, {
+		unit: unitOf(values.unit),
+		idColumn: values['id-column'],
+		required: [classCol, groupCol].filter((x): x is string => x !== undefined)
+	});
+	const training: TrainingSpectrum[] = table.spectra.map((s) => {
+		const cls = classCol === undefined ? null : s.meta[classCol];
+		if (classCol !== undefined && !cls) throw new CliError(`${file}: line ${s.line}, column "${classCol}": empty class`);
+		return { id: s.id, axis: s.axis, values: s.values, unit: s.unit, className: cls, group: groupCol === undefined ? null : s.meta[groupCol] || null };
+	});
+	const meta: Record<string, string> = { trainingFile: basename(file) };
+	for (const kv of values.meta ?? []) {
+		const eq = kv.indexOf('=');
+		if (eq < 1) throw new CliError(`--meta must be KEY=VALUE, got "${kv}"`);
+		meta[kv.slice(0, eq)] = kv.slice(eq + 1);
+	}
+	const folds = numberOpt('folds', values.folds);
+	const maxComponents = numberOpt('max-components', values['max-components']);
+	const options: BuildOptions = {
+		recipe: values.recipe,
+		components: componentsOpt('components', values.components),
+		familyComponents: componentsOpt('family-components', values['family-components']),
+		maxComponents,
+		alpha: numberOpt('alpha', values.alpha),
+		familyAlpha: numberOpt('family-alpha', values['family-alpha']),
+		gamma: numberOpt('gamma', values.gamma),
+		limits: oneOf('limits', values.limits, ['cv', 'training'] as const),
+		folds,
+		speLimit: oneOf('spe-limit', values['spe-limit'], ['jackson-mudholkar', 'box', 'moments'] as const),
+		estimator: oneOf('estimator', values.estimator, ['moments', 'robust'] as const),
+		genuine: values.genuine,
+		meta
+	};
+	for (const k of Object.keys(options) as (keyof BuildOptions)[]) if (options[k] === undefined) delete options[k];
+	let artefact;
+	try {
+		artefact = buildModel(training, options);
+	} catch (e) {
+		if (e instanceof AnalysisError) {
+			// name the CSV line of a spectrum the engine refers to by id
+			const m = /training spectrum "([^"]*)"/.exec(e.message);
+			const s = m ? table.spectra.find((x) => x.id === m[1]) : undefined;
+			throw new CliError(`${file}: ${s ? `line ${s.line}: ` : ''}${e.message}`);
+		}
+		throw e;
+	}
+	const text = serializeArtefact(artefact);
+	try {
+		writeFileSync(values.out, text);
+	} catch (e) {
+		throw new CliError(`${values.out}: cannot write the model (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+	}
+	const parts = [`family A=${artefact.family.components}`, ...artefact.classes.map((c) => `${c} A=${artefact.models[c].components}`)];
+	io.stderr(`model written to ${values.out}: ${training.length} spectra, ${artefact.axis.points} points, ${parts.join(', ')}\n`);
+	return 0;
+}
+
+interface ParsedLike {
+	spectra: { id: string | null; axis: Float64Array; values: Float64Array; unit: AxisUnit; title: string | null }[];
+}
+
+type ParseSpectrumFile = (bytes: Uint8Array, fileName: string, options?: { allowGaps?: boolean }) => ParsedLike;
+
+async function loadSpectrumParser(): Promise<ParseSpectrumFile> {
+	const spec = '../spectra/index.ts';
+	try {
+		const mod = (await import(/* @vite-ignore */ spec)) as { parseSpectrumFile?: ParseSpectrumFile };
+		if (typeof mod.parseSpectrumFile !== 'function') throw new Error('parseSpectrumFile missing');
+		return mod.parseSpectrumFile;
+	} catch (e) {
+		throw new CliError(`JCAMP-DX input needs the spectrum file parser (src/lib/spectra), which could not be loaded: ${(e as Error).message}`);
+	}
+}
+
+const statsFields = (s: ModelStats | null) =>
+	s === null
+		? null
+		: { scores: s.scores, t2: s.t2, spe: s.spe, h: s.h, v: s.v, c: s.c, t2Limit: s.t2Limit, speLimit: s.speLimit, cCrit: s.cCrit, cOutlier: s.cOutlier, accepted: s.accepted };
+
+async function runScreen(args: string[], io: CliIo): Promise<number> {
+	const { values } = parseArgs({
+		args,
+		strict: true,
+		options: {
+			model: { type: 'string' },
+			input: { type: 'string', multiple: true },
+			json: { type: 'boolean' },
+			unit: { type: 'string' },
+			'id-column': { type: 'string' }
+		}
+	});
+	if (!values.model) throw new CliError('screen needs --model MODEL.json');
+	if (!values.input || values.input.length === 0) throw new CliError('screen needs at least one --input FILE');
+	const modelText = readText(values.model, 'the model');
+	let artefact;
+	try {
+		artefact = parseArtefact(modelText);
+	} catch (e) {
+		if (e instanceof AnalysisError) throw new CliError(`${values.model}: ${e.message}`);
+		throw e;
+	}
+	const prep = prepareArtefact(artefact);
+	const unit = unitOf(values.unit);
+	const results: (ScreenResult & { file: string })[] = [];
+	for (const file of values.input) {
+		const ext = extname(file).toLowerCase();
+		let inputs: SpectrumInput[];
+		if (ext === '.jdx' || ext === '.dx' || ext === '.jcamp') {
+			const parse = await loadSpectrumParser();
+			let bytes: Uint8Array;
+			try {
+				bytes = readFileSync(file);
+			} catch (e) {
+				throw new CliError(`${file}: cannot read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+			}
+			let parsed: ParsedLike;
+			try {
+				parsed = parse(bytes, basename(file), { allowGaps: true });
+			} catch (e) {
+				const err = e as { message: string; line?: number };
+				throw new CliError(`${file}: ${err.line ? `line ${err.line}: ` : ''}${err.message}`);
+			}
+			inputs = parsed.spectra.map((s, k) => ({
+				id: s.id ?? s.title ?? (parsed.spectra.length > 1 ? `${basename(file)}#${k + 1}` : basename(file)),
+				axis: s.axis,
+				values: s.values,
+				unit: s.unit
+			}));
+		} else {
+			inputs = readSpectraCsv(readText(file, 'the input'), file, { unit, idColumn: values['id-column'], blankAsNaN: true }).spectra;
+		}
+		for (const s of inputs) results.push({ ...screen(prep, s), file });
+	}
+	const modelVersion = artefact.meta.version ?? `sha256:${createHash('sha256').update(modelText).digest('hex').slice(0, 16)}`;
+	if (values.json) {
+		const out = {
+			modelVersion,
+			results: results.map((r) => ({
+				id: r.id,
+				verdict: r.verdict,
+				profile: r.profile,
+				ambiguous: r.ambiguous,
+				reason: r.reason,
+				family: statsFields(r.family),
+				classes: Object.fromEntries(Object.entries(r.classes).map(([k, s]) => [k, statsFields(s)]))
+			}))
+		};
+		io.stdout(JSON.stringify(out, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : v), 2) + '\n');
+	} else io.stdout(table(results, artefact.classes, modelVersion));
+	return 0;
+}
+
+const f3 = (x: number | undefined): string => (x === undefined || !Number.isFinite(x) ? '-' : x.toFixed(3));
+
+function table(results: (ScreenResult & { file: string })[], classes: string[], modelVersion: string): string {
+	const head = ['id', 'verdict', 'family c/crit', ...classes.map((c) => `${c} c/crit`), 'note'];
+	const rows = results.map((r) => [
+		r.id,
+		r.verdict === 'suspect' ? `suspect:${r.profile}${r.ambiguous ? ' (ambiguous)' : ''}` : r.verdict,
+		r.family ? f3(r.family.c / r.family.cCrit) : '-',
+		...classes.map((c) => (r.classes[c] ? `${f3(r.classes[c].c / r.classes[c].cCrit)}${r.classes[c].accepted ? ' accept' : ''}` : '-')),
+		r.reason ?? ''
+	]);
+	const width = head.map((h, i) => Math.max(h.length, ...rows.map((row) => row[i].length)));
+	const line = (cells: string[]) => cells.map((c, i) => (i === cells.length - 1 ? c : c.padEnd(width[i]))).join('  ').trimEnd();
+	return [`model ${modelVersion}`, line(head), line(width.map((w) => '-'.repeat(w))), ...rows.map(line)].join('\n') + '\n';
+}
+
+/** Runs the command line; returns the exit code (0 ok, 1 data or file error, 2 usage error). */
+export async function main(argv: string[], io: CliIo = defaultIo): Promise<number> {
+	const [command, ...rest] = argv;
+	try {
+		if (command === 'build') return runBuild(rest, io);
+		if (command === 'screen') return await runScreen(rest, io);
+		if (command === undefined || command === 'help' || command === '--help' || command === '-h') {
+			io.stdout(USAGE);
+			return command === undefined ? 2 : 0;
+		}
+		io.stderr(`lotgate: unknown command "${command}"\n\n${USAGE}`);
+		return 2;
+	} catch (e) {
+		if (e instanceof CliError) {
+			io.stderr(`lotgate: ${e.message}\n`);
+			return 1;
+		}
+		const code = (e as { code?: string }).code;
+		if (typeof code === 'string' && code.startsWith('ERR_PARSE_ARGS')) {
+			io.stderr(`lotgate: ${(e as Error).message}\n\n${USAGE}`);
+			return 2;
+		}
+		if (e instanceof AnalysisError) {
+			io.stderr(`lotgate: ${e.message}\n`);
+			return 1;
+		}
+		throw e;
+	}
+}

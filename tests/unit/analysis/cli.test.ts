@@ -1,0 +1,56 @@
+import { describe, expect, test } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fixture, root } from './fixtures';
+
+const run = (...args: string[]) => spawnSync(process.execPath, [join(root, 'bin/lotgate.js'), ...args], { cwd: root, encoding: 'utf8' });
+
+describe('lotgate command line on the gasoline CSV (Kalivas 1997)', () => {
+	const dir = mkdtempSync(join(tmpdir(), 'lotgate-cli-'));
+	const model = join(dir, 'model.json');
+	test('build (family-only) then screen --json', { timeout: 60_000 }, () => {
+		const b = run('build', '--train', fixture('gasoline_nir.csv'), '--out', model);
+		expect(b.stderr).toContain('model written');
+		expect(b.status).toBe(0);
+		const art = JSON.parse(readFileSync(model, 'utf8'));
+		expect(art.family.cvPress.length).toBeGreaterThan(2);
+		const s = run('screen', '--model', model, '--input', fixture('gasoline_nir.csv'), '--json');
+		expect(s.status).toBe(0);
+		const out = JSON.parse(s.stdout);
+		expect(out.modelVersion).toMatch(/^sha256:/);
+		expect(out.results.length).toBe(60);
+		const r = out.results[0];
+		expect(Object.keys(r)).toEqual(['id', 'verdict', 'profile', 'ambiguous', 'reason', 'family', 'classes']);
+		expect(Object.keys(r.family)).toEqual(['scores', 't2', 'spe', 'h', 'v', 'c', 't2Limit', 'speLimit', 'cCrit', 'cOutlier', 'accepted']);
+		expect(r.id).toBe('G01');
+		expect(['genuine', 'not-this-material']).toContain(r.verdict);
+	});
+	test('build with classes and screen as a table', { timeout: 60_000 }, () => {
+		const csv = readFileSync(fixture('gasoline_nir.csv'), 'utf8').trim().split('\n');
+		const labelled = [csv[0].replace('"sample"', '"sample","grade"'), ...csv.slice(1).map((l, i) => l.replace(/^("[^"]*")/, `$1,"${i < 30 ? 'genuine' : 'blend'}"`))];
+		const train = join(dir, 'labelled.csv');
+		writeFileSync(train, labelled.join('\n'));
+		const m2 = join(dir, 'm2.json');
+		const b = run('build', '--train', train, '--class-column', 'grade', '--components', '3', '--out', m2);
+		expect(b.status, b.stderr).toBe(0);
+		const s = run('screen', '--model', m2, '--input', train);
+		expect(s.status).toBe(0);
+		expect(s.stdout).toMatch(/genuine c\/crit/);
+		expect(s.stdout.split('\n').length).toBeGreaterThan(60);
+	});
+	test('errors go to stderr with a non-zero exit, naming file, line and column', () => {
+		const bad = join(dir, 'bad.csv');
+		writeFileSync(bad, 'id,900,902,904\na,1,2,3\nb,1,x,3\n');
+		const r = run('build', '--train', bad, '--out', join(dir, 'x.json'));
+		expect(r.status).toBe(1);
+		expect(r.stderr).toContain(`${bad}: line 3, column 3 ("902"): "x" is not a number`);
+		const u = run('build', '--train', fixture('gasoline_nir.csv'));
+		expect(u.status).not.toBe(0);
+		expect(u.stderr).toMatch(/--out/);
+		const m = run('screen', '--model', join(dir, 'missing.json'), '--input', bad);
+		expect(m.status).toBe(1);
+		expect(m.stderr).toContain('missing.json: cannot read the model');
+	});
+});
