@@ -86,5 +86,7 @@ export async function seedDemo(log: (line: string) => void = console.log) {
 		for (const c of classes) await materials.addClass(admin, created.id, c, 'demo seed');
 	}
 	// Later workflows (library, models, lots) add their demo steps here, each idempotent.
+	await (await import('./method-development')).seedMethodDevelopment((await import('../../demo')).demoScenario().libraryFiles, demoPassword(), log);
+	await (await import('./lots-demo')).seedDemoLots(log);
 	log(`[seed] demo scenario "${DEMO_COMPANY}" is in place`);
 }

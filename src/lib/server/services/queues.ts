@@ -1,5 +1,10 @@
 import type { Role } from '$lib/permissions';
 import type { Actor } from './actor';
+import * as alerts from './alerts';
+import * as dispositions from './dispositions';
+import * as lots from './lots';
+import * as modelVersions from './model-versions';
+import * as supplierStatus from './supplier-status';
 
 export interface QueueItem {
 	href: string;
@@ -17,12 +22,24 @@ export interface Queue {
 
 type QueueDefinition = Omit<Queue, 'items'> & { items?: (actor: Actor) => Promise<QueueItem[]> };
 
+/** Lots for a home queue: awaiting scans (technicians) or screened and awaiting disposition (QA). */
+async function lotItems(status: 'awaiting-scans' | 'screened'): Promise<QueueItem[]> {
+	return (await lots.awaiting(status)).map((l) => ({
+		href: `/lots/${l.internalLot}`,
+		label: `${l.internalLot} · ${l.material.code} from ${l.supplier.code}`,
+		detail:
+			status === 'awaiting-scans'
+				? `${l.screenedCount} of ${l.sampledCount} containers screened`
+				: `awaiting disposition · ${l.identity === 'meets' ? 'meets identity' : l.identity === 'fails' ? 'fails identity' : 'screened'}`
+	}));
+}
+
 // One queue per role; each workflow fills its queue's `items` from its own service.
 const QUEUES: QueueDefinition[] = [
-	{ key: 'awaiting-scans', role: 'technician', title: 'Lots awaiting scans', empty: 'No lot is waiting for scans.', action: { href: '/lots', label: 'Go to lots' } },
-	{ key: 'model-drafts', role: 'chemometrician', title: 'Model drafts', empty: 'No draft model version is open.', action: { href: '/materials', label: 'Go to materials' } },
-	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.' },
-	{ key: 'supplier-alerts', role: 'procurement', title: 'Open supplier alerts', empty: 'No supplier alert is open.', action: { href: '/suppliers', label: 'Supplier scorecards' } },
+	{ key: 'awaiting-scans', role: 'technician', title: 'Lots awaiting scans', empty: 'No lot is waiting for scans.', action: { href: '/lots/new', label: 'Receive a lot' }, items: () => lotItems('awaiting-scans') },
+	{ key: 'model-drafts', role: 'chemometrician', title: 'Model drafts', empty: 'No draft model version is open.', action: { href: '/materials', label: 'Go to materials' }, items: (actor) => modelVersions.queueItems('chemometrician', actor) },
+	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.', items: async (actor) => [...(await lotItems('screened')), ...(await dispositions.queueItems(actor)), ...(await supplierStatus.queueItems(actor)), ...(await modelVersions.queueItems('qa', actor))] },
+	{ key: 'supplier-alerts', role: 'procurement', title: 'Open supplier alerts', empty: 'No supplier alert is open.', action: { href: '/alerts', label: 'All alerts' }, items: () => alerts.queueItems() },
 	{ key: 'admin', role: 'admin', title: 'Administration', empty: 'Users, instruments and their tokens.', action: { href: '/admin', label: 'Open admin' } }
 ];
 

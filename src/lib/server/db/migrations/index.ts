@@ -2,6 +2,9 @@ import type { Sequelize } from 'sequelize';
 import foundation from './001-foundation';
 import methodDevelopment from './002-method-development';
 import lots from './003-lots';
+import modelRebuilds from './004-model-rebuilds';
+import lotsExtra from './005-lots-extra';
+import disposition from './006-disposition';
 
 export interface Migration {
 	name: string;
@@ -10,4 +13,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition];

@@ -1,0 +1,122 @@
+// Shared pieces of the evidence plots: group colours AND shapes (never colour alone), exports, and metadata grouping.
+import Papa from 'papaparse';
+
+/** Colour-blind-safe palette (Okabe–Ito order), paired with a distinct point shape per group. */
+export const PALETTE = ['#0072B2', '#D55E00', '#009E73', '#CC79A7', '#E69F00', '#56B4E9', '#000000', '#8C6D31', '#7F3C8D', '#3969AC'];
+export const SHAPES = ['circle', 'triangle', 'rect', 'rectRot', 'crossRot', 'star', 'rectRounded', 'cross', 'line', 'dash'] as const;
+export type Shape = (typeof SHAPES)[number];
+
+/** Metadata per id (spectrum or scan), e.g. { class: 'genuine', supplier: 'NORDVIK', instrument: 'NIR-DOCK-1', lot: 'L-17', date: '2025-03-02' }. */
+export type PointMeta = Record<string, Record<string, string | null | undefined>>;
+
+export const DEFAULT_COLOR_KEYS = ['class', 'supplier', 'instrument', 'lot', 'date'];
+
+export function colorKeysFor(meta: PointMeta, preferred: string[] = DEFAULT_COLOR_KEYS): string[] {
+	const present = new Set<string>();
+	for (const m of Object.values(meta)) for (const [k, v] of Object.entries(m)) if (v != null && v !== '') present.add(k);
+	return preferred.filter((k) => present.has(k));
+}
+
+export interface Group<T> {
+	key: string;
+	color: string;
+	shape: Shape;
+	items: T[];
+}
+
+/** Splits items by one metadata field; the order is stable (sorted labels, "—" for missing last). */
+export function groupBy<T extends { id: string }>(items: T[], meta: PointMeta, key: string | null | undefined): Group<T>[] {
+	const buckets = new Map<string, T[]>();
+	for (const item of items) {
+		const label = key ? String(meta[item.id]?.[key] ?? '') || '—' : 'all';
+		if (!buckets.has(label)) buckets.set(label, []);
+		buckets.get(label)!.push(item);
+	}
+	const labels = [...buckets.keys()].sort((a, b) => (a === '—' ? 1 : b === '—' ? -1 : a.localeCompare(b)));
+	return labels.map((label, i) => ({ key: label, color: PALETTE[i % PALETTE.length], shape: SHAPES[i % SHAPES.length], items: buckets.get(label)! }));
+}
+
+export function downloadUrl(url: string, fileName: string) {
+	const a = document.createElement('a');
+	a.href = url;
+	a.download = fileName;
+	document.body.appendChild(a);
+	a.click();
+	a.remove();
+}
+
+/** The plotted data, one row per point or per axis value, through papaparse so quoting is right. */
+export function downloadCsv(rows: Record<string, unknown>[], fileName: string) {
+	const blob = new Blob([Papa.unparse(rows)], { type: 'text/csv;charset=utf-8' });
+	const url = URL.createObjectURL(blob);
+	downloadUrl(url, fileName);
+	setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+export const fileSafe = (s: string) => s.replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^-|-$/g, '') || 'plot';
+
+/** n points of the curve N_h·x + N_q·y = c in the first quadrant (x = h/h0, y = v/v0); geometric spacing on log axes. */
+export function boundaryCurve(c: number, nh: number, nq: number, log = false, n = 80): { x: number; y: number }[] {
+	if (!(c > 0) || !(nh > 0) || !(nq > 0)) return [];
+	const xMax = c / nh;
+	const out: { x: number; y: number }[] = [];
+	for (let i = 0; i <= n; i++) {
+		const x = log ? xMax * Math.pow(10, -4 + (4 * i) / n) : (xMax * i) / n;
+		const y = (c - nh * x) / nq;
+		if (log && y <= 0) {
+			out.push({ x: xMax * 0.9999, y: (c - nh * xMax * 0.9999) / nq });
+			break;
+		}
+		out.push({ x, y: Math.max(y, 0) });
+	}
+	return out;
+}
+
+export const fmt = (v: number | null | undefined, digits = 3) => (v == null || !Number.isFinite(v) ? '—' : Math.abs(v) >= 1000 || (Math.abs(v) < 0.001 && v !== 0) ? v.toExponential(2) : v.toFixed(digits));
+
+interface Selected {
+	has(id: string): boolean;
+	readonly size: number;
+}
+type Ctx = { raw?: unknown };
+const rawId = (ctx: Ctx) => (ctx.raw as { id?: string } | undefined)?.id ?? '';
+
+/**
+ * Scatter datasets, one per group, each with its own colour and shape. Selected ids grow and get a dark ring;
+ * while something is selected, the rest fade, so the brushed points stand out in every plot.
+ */
+export function scatterDatasets<T extends { id: string; x: number; y: number }>(groups: Group<T>[], selection: Selected) {
+	return groups.map((g) => ({
+		type: 'scatter' as const,
+		label: g.key,
+		data: g.items,
+		pointStyle: g.shape,
+		pointRadius: (ctx: Ctx) => (selection.has(rawId(ctx)) ? 8 : 4.5),
+		pointHoverRadius: 9,
+		pointBorderWidth: (ctx: Ctx) => (selection.has(rawId(ctx)) ? 3 : 1.2),
+		borderColor: (ctx: Ctx) => (selection.has(rawId(ctx)) ? '#1c2a33' : g.color),
+		backgroundColor: (ctx: Ctx) => (selection.size && !selection.has(rawId(ctx)) ? g.color + '33' : g.color + 'aa')
+	}));
+}
+
+/** A boundary or guide drawn as a line without points, excluded from brushing. */
+export function guideLine(label: string, data: { x: number; y: number }[], color: string, dash: number[] = []) {
+	return { type: 'line' as const, label, data, borderColor: color, borderDash: dash, borderWidth: 2, pointRadius: 0, pointHitRadius: 0, fill: false, tension: 0, parsing: false as const };
+}
+
+export function pointTooltip(meta: PointMeta, describe: (raw: { id: string; x: number; y: number }) => string) {
+	return {
+		callbacks: {
+			label: (item: { raw: unknown; dataset: { type?: string; label?: string } }) => {
+				const raw = item.raw as { id?: string; x: number; y: number };
+				if (!raw?.id) return item.dataset.label ?? '';
+				const m = meta[raw.id] ?? {};
+				const tags = Object.entries(m)
+					.filter(([, v]) => v)
+					.map(([k, v]) => `${k}: ${v}`)
+					.join(' · ');
+				return `${raw.id} — ${describe(raw as { id: string; x: number; y: number })}${tags ? ` (${tags})` : ''}`;
+			}
+		}
+	};
+}

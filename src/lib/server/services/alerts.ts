@@ -1,0 +1,268 @@
+// Supplier alerts for procurement: opened automatically (inside the scan's transaction) when a lot gets a
+// non-genuine verdict, then acknowledged and closed by procurement, each step with a note and an audit event.
+//
+// Severity follows the verdict, worst first:
+//   high   — suspect (matches a known bad profile: diluted, substituted, counterfeit source) and not-this-material
+//            (fails the family model: a different material). Both are positive evidence that the supplier shipped
+//            something other than what was ordered.
+//   medium — unknown: inside the material family but accepted by no class model. Possibly a new adulteration, possibly
+//            an unusual genuine lot; it calls for investigation, not a conclusion about the supplier.
+//   low    — unusable: the file or spectrum was invalid (truncated, wrong technique, range not covered). It says nothing
+//            about the material yet, but repeated ones point at labelling or packaging that hinders scanning.
+// `not-screened` (no approved model) opens no alert: it is our gap, not the supplier's.
+import { QueryTypes, type Transaction } from 'sequelize';
+import { z } from 'zod';
+import { sequelize, transaction } from '../db';
+import { queueMail } from '../mail';
+import { hasRole, type Actor } from './actor';
+import * as audit from './audit';
+import { conflict, forbidden, invalid, notFound } from './errors';
+
+export type Severity = 'high' | 'medium' | 'low';
+export type AlertState = 'open' | 'acknowledged' | 'closed';
+export const ALERT_STATES: AlertState[] = ['open', 'acknowledged', 'closed'];
+
+export const SEVERITY_OF: Record<string, { severity: Severity; rank: number }> = {
+	suspect: { severity: 'high', rank: 3 },
+	'not-this-material': { severity: 'high', rank: 3 },
+	unknown: { severity: 'medium', rank: 2 },
+	unusable: { severity: 'low', rank: 1 }
+};
+export const SEVERITY_LABELS: Record<Severity, string> = { high: 'high', medium: 'medium', low: 'low' };
+
+export interface ScanFinding {
+	/** The scan's id. */
+	id: number;
+	lotId: number;
+	container: number;
+	verdict: string;
+	profile?: string | null;
+	reason?: string | null;
+}
+
+export const noteSchema = z.object({ note: z.string().trim().min(3, 'Write a note of at least 3 characters').max(2000, 'At most 2000 characters') });
+
+function requireProcurement(actor: Actor) {
+	if (!hasRole(actor, 'procurement', 'admin')) throw forbidden('Only procurement (or an admin) handles supplier alerts');
+}
+
+const verdictText = (f: { verdict: string; profile?: string | null }) => (f.verdict === 'suspect' ? `suspect (${f.profile ?? 'profile'})` : f.verdict === 'not-this-material' ? 'not this material' : f.verdict);
+
+/**
+ * Called by the scan workflow inside its transaction for every screened scan. Opens one live alert per lot, adds later
+ * findings to it, and raises its severity when a worse verdict arrives. Mails procurement on opening and raising.
+ */
+export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFinding) {
+	const level = SEVERITY_OF[scan.verdict];
+	if (!level) return null;
+	const [lot] = await sequelize().query<{ internal_lot: string; supplier_id: number; material_id: number; supplier_code: string; supplier_name: string; material_code: string }>(
+		`SELECT l.internal_lot, l.supplier_id, l.material_id, s.code AS supplier_code, s.name AS supplier_name, m.code AS material_code
+		   FROM lots l JOIN suppliers s ON s.id = l.supplier_id JOIN materials m ON m.id = l.material_id WHERE l.id = :lotId`,
+		{ replacements: { lotId: scan.lotId }, type: QueryTypes.SELECT, transaction: tx }
+	);
+	if (!lot) throw notFound(`Lot ${scan.lotId}`);
+	const finding = { scanId: scan.id, container: scan.container, verdict: scan.verdict, profile: scan.profile ?? null, reason: scan.reason ?? null, severity: level.severity };
+	const live = await sequelize().query<{ id: number; severity_rank: number; severity: Severity; findings: unknown[] }>(
+		"SELECT id, severity_rank, severity, findings FROM alerts WHERE lot_id = :lotId AND state <> 'closed' FOR UPDATE",
+		{ replacements: { lotId: scan.lotId }, type: QueryTypes.SELECT, transaction: tx }
+	);
+	let alertId: number;
+	let notify = false;
+	if (live[0]) {
+		const a = live[0];
+		alertId = Number(a.id);
+		const raise = level.rank > a.severity_rank;
+		await sequelize().query(
+			`UPDATE alerts SET findings = findings || CAST(:finding AS jsonb)${raise ? ', severity = :severity, severity_rank = :rank, verdict = :verdict, profile = :profile, scan_id = :scanId' : ''} WHERE id = :id`,
+			{ replacements: { id: alertId, finding: JSON.stringify([finding]), severity: level.severity, rank: level.rank, verdict: scan.verdict, profile: scan.profile ?? null, scanId: scan.id }, transaction: tx }
+		);
+		await audit.record(tx, actor, {
+			action: raise ? 'alert.raised' : 'alert.finding-added',
+			entity: 'alert',
+			entityId: alertId,
+			before: raise ? { severity: a.severity } : undefined,
+			after: { finding, ...(raise ? { severity: level.severity } : {}) }
+		});
+		notify = raise;
+	} else {
+		const [row] = await sequelize().query<{ id: number }>(
+			`INSERT INTO alerts (supplier_id, material_id, lot_id, scan_id, severity, severity_rank, verdict, profile, findings)
+			 VALUES (:supplierId, :materialId, :lotId, :scanId, :severity, :rank, :verdict, :profile, CAST(:findings AS jsonb)) RETURNING id`,
+			{
+				replacements: {
+					supplierId: lot.supplier_id,
+					materialId: lot.material_id,
+					lotId: scan.lotId,
+					scanId: scan.id,
+					severity: level.severity,
+					rank: level.rank,
+					verdict: scan.verdict,
+					profile: scan.profile ?? null,
+					findings: JSON.stringify([finding])
+				},
+				type: QueryTypes.SELECT,
+				transaction: tx
+			}
+		);
+		alertId = Number(row.id);
+		await audit.record(tx, actor, {
+			action: 'alert.opened',
+			entity: 'alert',
+			entityId: alertId,
+			after: { supplier: lot.supplier_code, lot: lot.internal_lot, severity: level.severity, finding }
+		});
+		notify = true;
+	}
+	if (notify) {
+		const recipients = await procurementRecipients(tx);
+		await queueMail(tx, {
+			kind: 'alert',
+			recipients,
+			subject: `Supplier alert (${level.severity}): ${lot.supplier_code}, lot ${lot.internal_lot} container ${scan.container} ${verdictText(scan)}`,
+			body: [
+				`Lot ${lot.internal_lot} of ${lot.material_code} from ${lot.supplier_code} · ${lot.supplier_name}: container ${scan.container} was screened ${verdictText(scan)}.`,
+				scan.reason ? `Reason: ${scan.reason}` : '',
+				`Severity: ${level.severity}. Acknowledge and close the alert in Lotgate under Alerts (alert #${alertId}).`
+			]
+				.filter(Boolean)
+				.join('\n'),
+			lotId: scan.lotId,
+			alertId
+		});
+	}
+	return alertId;
+}
+
+async function procurementRecipients(tx: Transaction): Promise<string[]> {
+	const rows = await sequelize().query<{ email: string }>("SELECT email FROM users WHERE active AND 'procurement' = ANY(roles) ORDER BY email", { type: QueryTypes.SELECT, transaction: tx });
+	return rows.map((r) => r.email);
+}
+
+// ---------- reading ----------
+
+export interface AlertView {
+	id: number;
+	state: AlertState;
+	severity: Severity;
+	severityRank: number;
+	verdict: string;
+	profile: string | null;
+	supplier: { id: number; code: string; name: string };
+	material: { id: number; code: string };
+	lot: { id: number; internalLot: string; supplierLot: string };
+	scanId: number;
+	findings: { scanId: number; container: number; verdict: string; profile: string | null; reason: string | null; severity: Severity }[];
+	openedAt: string;
+	acknowledged: { by: string | null; at: string; note: string } | null;
+	closed: { by: string | null; at: string; note: string } | null;
+}
+
+const SELECT = `SELECT a.*, s.code AS supplier_code, s.name AS supplier_name, m.code AS material_code, l.internal_lot, l.supplier_lot,
+        ua.name AS acknowledged_by_name, uc.name AS closed_by_name, count(*) OVER () AS total
+   FROM alerts a JOIN suppliers s ON s.id = a.supplier_id JOIN materials m ON m.id = a.material_id JOIN lots l ON l.id = a.lot_id
+   LEFT JOIN users ua ON ua.id = a.acknowledged_by LEFT JOIN users uc ON uc.id = a.closed_by`;
+
+function toView(r: Record<string, unknown>): AlertView {
+	const iso = (d: unknown) => new Date(d as Date).toISOString();
+	return {
+		id: Number(r.id),
+		state: r.state as AlertState,
+		severity: r.severity as Severity,
+		severityRank: Number(r.severity_rank),
+		verdict: r.verdict as string,
+		profile: (r.profile as string | null) ?? null,
+		supplier: { id: Number(r.supplier_id), code: r.supplier_code as string, name: r.supplier_name as string },
+		material: { id: Number(r.material_id), code: r.material_code as string },
+		lot: { id: Number(r.lot_id), internalLot: r.internal_lot as string, supplierLot: r.supplier_lot as string },
+		scanId: Number(r.scan_id),
+		findings: (r.findings as AlertView['findings']) ?? [],
+		openedAt: iso(r.opened_at),
+		acknowledged: r.acknowledged_at ? { by: (r.acknowledged_by_name as string | null) ?? null, at: iso(r.acknowledged_at), note: r.acknowledge_note as string } : null,
+		closed: r.closed_at ? { by: (r.closed_by_name as string | null) ?? null, at: iso(r.closed_at), note: r.close_note as string } : null
+	};
+}
+
+export interface AlertQuery {
+	state?: string;
+	supplier?: string | number;
+	lot?: number;
+	sort?: string;
+	page?: number;
+	pageSize?: number;
+}
+
+const SORTS: Record<string, string> = { opened: 'a.opened_at', severity: 'a.severity_rank', supplier: 's.code', state: 'a.state', lot: 'l.internal_lot' };
+
+export async function list(query: AlertQuery = {}) {
+	const where: string[] = [];
+	const replacements: Record<string, unknown> = {};
+	if (query.state) {
+		// "live" is the working list: open and acknowledged.
+		const states = query.state === 'live' ? ['open', 'acknowledged'] : String(query.state).split(',').filter((s) => (ALERT_STATES as string[]).includes(s));
+		if (!states.length) throw invalid(`State is one of ${ALERT_STATES.join(', ')} or live`, 'state');
+		where.push('a.state IN (:states)');
+		replacements.states = states;
+	}
+	if (query.supplier != null && query.supplier !== '') {
+		const byId = /^\d+$/.test(String(query.supplier));
+		where.push(byId ? 's.id = :supplier' : 's.code = upper(:supplier)');
+		replacements.supplier = byId ? Number(query.supplier) : String(query.supplier);
+	}
+	if (query.lot) {
+		where.push('a.lot_id = :lot');
+		replacements.lot = query.lot;
+	}
+	const [column, direction] = (query.sort ?? 'severity:desc').split(':');
+	const order = `${SORTS[column] ?? 'a.severity_rank'} ${direction === 'asc' ? 'ASC' : 'DESC'}, a.opened_at DESC, a.id DESC`;
+	const pageSize = Math.min(Math.max(Number(query.pageSize) || 25, 1), 200);
+	const page = Math.max(Number(query.page) || 1, 1);
+	const rows = await sequelize().query<Record<string, unknown>>(`${SELECT} ${where.length ? `WHERE ${where.join(' AND ')}` : ''} ORDER BY ${order} LIMIT :limit OFFSET :offset`, {
+		replacements: { ...replacements, limit: pageSize, offset: (page - 1) * pageSize },
+		type: QueryTypes.SELECT
+	});
+	return {
+		rows: rows.map(toView),
+		total: rows.length ? Number(rows[0].total) : 0,
+		page,
+		pageSize,
+		sort: `${column in SORTS ? column : 'severity'}${direction === 'asc' ? ':asc' : ':desc'}`
+	};
+}
+
+export async function get(id: number, tx?: Transaction): Promise<AlertView> {
+	if (!Number.isInteger(id) || id < 1) throw notFound(`Alert ${id}`);
+	const rows = await sequelize().query<Record<string, unknown>>(`${SELECT} WHERE a.id = :id`, { replacements: { id }, type: QueryTypes.SELECT, transaction: tx });
+	if (!rows[0]) throw notFound(`Alert ${id}`);
+	return toView(rows[0]);
+}
+
+// ---------- handling ----------
+
+async function step(actor: Actor, id: number, note: string, from: AlertState, to: AlertState) {
+	requireProcurement(actor);
+	const { note: text } = noteSchema.parse({ note });
+	return transaction(async (tx) => {
+		const rows = await sequelize().query<{ state: AlertState }>('SELECT state FROM alerts WHERE id = :id FOR UPDATE', { replacements: { id }, type: QueryTypes.SELECT, transaction: tx });
+		if (!rows[0]) throw notFound(`Alert ${id}`);
+		if (rows[0].state !== from) {
+			throw conflict(to === 'acknowledged' ? `Alert ${id} is ${rows[0].state}: only an open alert can be acknowledged` : `Alert ${id} is ${rows[0].state}: acknowledge it before closing it`);
+		}
+		const columns = to === 'acknowledged' ? 'acknowledged_by = :by, acknowledged_at = now(), acknowledge_note = :note' : 'closed_by = :by, closed_at = now(), close_note = :note';
+		await sequelize().query(`UPDATE alerts SET state = :to, ${columns} WHERE id = :id`, { replacements: { id, to, by: actor.id, note: text }, transaction: tx });
+		await audit.record(tx, actor, { action: `alert.${to}`, entity: 'alert', entityId: id, before: { state: from }, after: { state: to, note: text }, reason: text });
+		return get(id, tx);
+	});
+}
+
+export const acknowledge = (actor: Actor, id: number, note: string) => step(actor, id, note, 'open', 'acknowledged');
+export const close = (actor: Actor, id: number, note: string) => step(actor, id, note, 'acknowledged', 'closed');
+
+/** Live alerts, worst first (procurement's home queue). */
+export async function live(limit = 20) {
+	return (await list({ state: 'live', sort: 'severity:desc', pageSize: limit })).rows;
+}
+
+/** Procurement home queue: open and acknowledged alerts, worst first. */
+export async function queueItems() {
+	return (await live(20)).map((a) => ({ href: `/alerts/${a.id}`, label: `${a.supplier.code} · ${a.lot.internalLot}: ${verdictText(a)}`, detail: `${a.severity} severity · ${a.state}` }));
+}

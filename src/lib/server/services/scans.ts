@@ -1,0 +1,414 @@
+// Scans of a lot's containers: store the raw file (through the intake), screen it at once with the material's approved
+// model version, keep the verdict with its full statistics, and recompute the lot status — one transaction per scan.
+import { createHash } from 'node:crypto';
+import { QueryTypes, type Transaction } from 'sequelize';
+import { z } from 'zod';
+import { prepareArtefact, screen, type PreparedArtefact, type ScreenResult } from '../../analysis';
+import { sequelize, transaction } from '../db';
+import { hasRole, type Actor } from './actor';
+import * as alerts from './alerts';
+import * as audit from './audit';
+import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
+import * as lots from './lots';
+import { isClosed, VALID_VERDICTS, type Identity, type LotStatus, type ScanVerdict } from './lots';
+import * as intake from './spectra';
+
+export { isClosed };
+
+export interface ScanFile {
+	bytes: Uint8Array;
+	fileName: string;
+	container: number | string;
+	/** For a session upload: which instrument measured it (an instrument token sets it itself). */
+	instrumentId?: number | null;
+}
+
+const containerSchema = z.coerce
+	.number({ invalid_type_error: 'Container must be a number' })
+	.int('Container must be a whole number')
+	.min(1, 'Container numbers start at 1');
+
+interface ApprovedModel {
+	versionId: number;
+	label: string;
+	sha256: string;
+	prep: PreparedArtefact;
+}
+// Prepared artefacts by version id: an approved artefact never changes, so its typed arrays are built once.
+const preparedCache = new Map<number, ApprovedModel>();
+
+/** A model version prepared for screening, cached by id (a built artefact never changes). */
+export async function preparedVersion(versionId: number): Promise<ApprovedModel | null> {
+	const hit = preparedCache.get(versionId);
+	if (hit) return hit;
+	const rows = await sequelize().query<{ id: number; version: number; artefact_sha256: string | null; code: string; artefact: Parameters<typeof prepareArtefact>[0] | null }>(
+		`SELECT v.id, v.version, v.artefact_sha256, v.artefact, m.code FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE v.id = :versionId`,
+		{ replacements: { versionId }, type: QueryTypes.SELECT }
+	);
+	const r = rows[0];
+	if (!r?.artefact) return null;
+	const model: ApprovedModel = { versionId: Number(r.id), label: `${r.code} v${r.version}`, sha256: r.artefact_sha256 ?? '', prep: prepareArtefact(r.artefact) };
+	preparedCache.set(model.versionId, model);
+	return model;
+}
+
+/** The material's approved version, prepared; read outside the scan's transaction so no second connection is held. */
+export async function approvedModel(materialId: number): Promise<ApprovedModel | null> {
+	const rows = await sequelize().query<{ id: number }>(
+		"SELECT id FROM model_versions WHERE material_id = :materialId AND state = 'approved' AND artefact IS NOT NULL",
+		{ replacements: { materialId }, type: QueryTypes.SELECT }
+	);
+	return rows[0] ? preparedVersion(Number(rows[0].id)) : null;
+}
+
+/**
+ * The verdict and statistics exactly as `lotgate screen` computes them. Per-variable contributions are not stored:
+ * they cost more than the rest of a scan together, and they follow from the stored spectrum and the same artefact,
+ * so `detail()` recomputes them when the evidence panel asks for one scan.
+ */
+function screenStored(prep: PreparedArtefact, spectrum: Parameters<typeof screen>[1]): ScreenResult {
+	return screen(prep, spectrum);
+}
+
+function requireScanner(actor: Actor) {
+	if (actor.instrumentId == null && !hasRole(actor, 'technician', 'admin')) throw forbidden('Only a technician, an admin or an instrument token adds scans');
+}
+
+function planText(lot: { internal_lot: string; plan: { label?: string; kind: string } }, sampled: number[]) {
+	const shown = sampled.length > 24 ? `${sampled.slice(0, 24).join(', ')} … (${sampled.length} in all)` : sampled.join(', ');
+	return `the sampling plan of ${lot.internal_lot} (${lot.plan.label ?? lot.plan.kind}: containers ${shown})`;
+}
+
+interface InstrumentRow {
+	id: number;
+	name: string;
+	technique: string;
+	axis_unit: 'nm' | 'cm-1' | 'um';
+}
+
+async function instrumentOf(id: number | null | undefined, tx: Transaction): Promise<InstrumentRow | null> {
+	if (id == null) return null;
+	const rows = await sequelize().query<InstrumentRow>('SELECT id, name, technique, axis_unit FROM instruments WHERE id = :id', { replacements: { id }, type: QueryTypes.SELECT, transaction: tx });
+	if (!rows[0]) throw invalid(`Instrument ${id} is not registered`, 'instrumentId');
+	return rows[0];
+}
+
+/** A file that does not parse is still kept byte for byte as the scan's evidence, with no points. */
+async function storeUnparsed(tx: Transaction, actor: Actor, lotId: number, file: ScanFile, instrument: InstrumentRow | null, fallbackUnit: 'nm' | 'cm-1' | 'um', reason: string, format: 'unparsed' | 'refused') {
+	const sha256 = createHash('sha256').update(file.bytes).digest('hex');
+	const dup = await sequelize().query<{ id: number }>("SELECT id FROM spectra WHERE context = 'lot' AND context_id = :lotId AND sha256 = :sha256 LIMIT 1", {
+		replacements: { lotId, sha256 },
+		type: QueryTypes.SELECT,
+		transaction: tx
+	});
+	if (dup[0]) throw conflict(`${file.fileName}: the same file was already uploaded to this lot`, 'file');
+	const [row] = await sequelize().query<{ id: number }>(
+		`INSERT INTO spectra (sha256, raw, file_name, format, row_index, points, axis, intensities, unit, meta, instrument_id, uploaded_by, context, context_id)
+		 VALUES (:sha256, :raw, :fileName, :format, 0, 0, '{}', '{}', :unit, :meta, :instrumentId, :uploadedBy, 'lot', :lotId) RETURNING id`,
+		{
+			replacements: {
+				sha256,
+				raw: Buffer.from(file.bytes),
+				fileName: file.fileName,
+				unit: instrument?.axis_unit ?? fallbackUnit,
+				format,
+				meta: JSON.stringify({ refusedBecause: reason }),
+				instrumentId: instrument?.id ?? null,
+				uploadedBy: actor.id,
+				lotId
+			},
+			type: QueryTypes.SELECT,
+			transaction: tx
+		}
+	);
+	return { id: Number(row.id), sha256, title: null as string | null };
+}
+
+type Ingested =
+	| { ok: true; spectrum: { id: number; sha256: string; title: string | null; technique: string | null; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um' } }
+	| { ok: false; reason: string; format: 'unparsed' | 'refused' };
+
+// The spectrum parser's refusal codes (src/lib/spectra/errors.ts): such a file is kept as an unusable scan, not refused.
+const PARSE_CODES = new Set([
+	'empty', 'binary', 'unknown-format', 'truncated', 'npoints-mismatch', 'firstx-mismatch', 'lastx-mismatch', 'x-check', 'firsty-mismatch',
+	'checkvalue', 'axis-not-monotonic', 'axis-duplicate', 'non-finite', 'too-few-points', 'unknown-unit', 'peak-table', 'unsupported-table',
+	'multi-block', 'link-block', 'missing-label', 'unsupported-version', 'bad-number', 'csv-shape'
+]);
+
+/**
+ * Stores the scan's file through the intake service, inside the scan's transaction. Unlike a library upload, a file
+ * that does not parse (or whose own technique contradicts its instrument) is not refused: the caller keeps its bytes
+ * as an unusable scan with the reason. Gaps are allowed, as `lotgate screen` allows them, so the engine decides
+ * whether the model range is covered and names the missing interval. The values screened are the stored ones.
+ */
+async function ingestForScan(tx: Transaction, actor: Actor, lotId: number, file: ScanFile, instrument: InstrumentRow | null): Promise<Ingested> {
+	let stored: intake.StoredSpectrum[];
+	try {
+		stored = await intake.ingestFile(actor, { bytes: file.bytes, fileName: file.fileName, instrumentId: instrument?.id ?? null, context: 'lot', contextId: lotId, allowGaps: true }, tx);
+	} catch (e) {
+		if (e instanceof intake.IntakeError && PARSE_CODES.has(e.code)) return { ok: false, reason: e.message, format: 'unparsed' };
+		if (e instanceof intake.IntakeError && e.code === 'wrong-technique') return { ok: false, reason: `wrong technique: ${e.message}`, format: 'refused' };
+		throw e;
+	}
+	if (stored.length !== 1) throw invalid(`${file.fileName} holds ${stored.length} spectra; a container scan is one spectrum`, 'file');
+	const s = stored[0];
+	const [row] = await sequelize().query<{ axis: (number | null)[]; intensities: (number | null)[]; unit: 'nm' | 'cm-1' | 'um' }>('SELECT axis, intensities, unit FROM spectra WHERE id = :id', {
+		replacements: { id: s.id },
+		type: QueryTypes.SELECT,
+		transaction: tx
+	});
+	const nan = (x: number | null) => (x == null ? Number.NaN : x);
+	return { ok: true, spectrum: { id: s.id, sha256: s.sha256, title: s.title, technique: s.technique, axis: row.axis.map(nan), values: row.intensities.map(nan), unit: row.unit } };
+}
+
+const techniqueName = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
+
+/** Adds one scan of one container and screens it; answers the stored scan and the lot's new status. */
+export async function add(actor: Actor, lotRef: number | string, file: ScanFile) {
+	requireScanner(actor);
+	if (!file?.bytes?.length) throw invalid('Choose a spectrum file: the upload is empty', 'file');
+	if (!file.fileName?.trim()) throw invalid('The file needs a name', 'file');
+	const parsedContainer = containerSchema.safeParse(file.container);
+	if (!parsedContainer.success) throw invalid(`Container: ${parsedContainer.error.issues[0].message}`, 'container');
+	const container = parsedContainer.data;
+	const lotId = await lots.resolve(lotRef);
+	const [material] = await sequelize().query<{ id: number; code: string; technique: string; version_id: number | null }>(
+		`SELECT m.id, m.code, m.technique, v.id AS version_id FROM lots l JOIN materials m ON m.id = l.material_id
+		   LEFT JOIN model_versions v ON v.material_id = m.id AND v.state = 'approved' AND v.artefact IS NOT NULL WHERE l.id = :lotId`,
+		{ replacements: { lotId }, type: QueryTypes.SELECT }
+	);
+	if (!material) throw notFound(`Lot ${lotRef}`);
+	const model = material.version_id ? await preparedVersion(Number(material.version_id)) : null;
+	const instrumentId = actor.instrumentId ?? file.instrumentId ?? null;
+
+	const outcome = await transaction(async (tx) => {
+		const lot = await lots.lotRow(lotId, tx, true);
+		if (isClosed(lot)) throw conflict(`Lot ${lot.internal_lot} is ${lot.status}: a dispositioned lot takes no more scans`);
+		if (!lot.sampled.includes(container)) throw invalid(`Container ${container} is not in ${planText(lot, lot.sampled)}`, 'container');
+		const instrument = await instrumentOf(instrumentId, tx);
+
+		let stored: { id: number; sha256: string; title: string | null };
+		let result: ScreenResult | null = null;
+		let verdict: ScanVerdict;
+		let reason: string | null = null;
+		const ingested = await ingestForScan(tx, actor, lotId, file, instrument);
+		if (!ingested.ok) {
+			stored = await storeUnparsed(tx, actor, lotId, file, instrument, material.technique === 'Raman' ? 'cm-1' : 'nm', ingested.reason, ingested.format);
+			verdict = 'unusable';
+			reason = ingested.format === 'unparsed' ? `the file could not be read: ${ingested.reason}` : ingested.reason;
+		} else {
+			const s = ingested.spectrum;
+			stored = { id: s.id, sha256: s.sha256, title: s.title };
+			if (instrument && instrument.technique !== material.technique) {
+				verdict = 'unusable';
+				reason = `wrong technique: instrument ${instrument.name} measures ${techniqueName(instrument.technique)}, but ${material.code} is identified by ${techniqueName(material.technique)}`;
+			} else if (s.technique && s.technique !== material.technique) {
+				verdict = 'unusable';
+				reason = `wrong technique: the file is a ${techniqueName(s.technique)} spectrum, but ${material.code} is identified by ${techniqueName(material.technique)}`;
+			} else if (!model) {
+				verdict = 'not-screened';
+				reason = `not screened: no approved model for ${material.code}`;
+			} else {
+				result = screenStored(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
+				verdict = result.verdict;
+				reason = result.reason;
+			}
+		}
+		const scan = await insertScan(tx, actor, {
+			lotId,
+			container,
+			spectrumId: stored.id,
+			modelVersionId: result ? model!.versionId : null,
+			verdict,
+			profile: result?.profile ?? null,
+			ambiguous: result?.ambiguous ?? false,
+			reason,
+			result,
+			instrumentId: instrument?.id ?? null,
+			rescreenOf: null
+		});
+		// Audit last: the audit chain's lock is held from the first record to commit, so keep that span short.
+		const status = await recomputeStatus(tx, lotId, actor, lot);
+		await audit.record(tx, actor, {
+			action: 'lot.scan-added',
+			entity: 'lot',
+			entityId: lotId,
+			after: {
+				scanId: scan.id,
+				container,
+				fileName: file.fileName,
+				sha256: stored.sha256,
+				verdict,
+				profile: result?.profile ?? null,
+				ambiguous: result?.ambiguous ?? false,
+				reason,
+				modelVersion: result ? model!.label : null,
+				artefactSha256: result ? model!.sha256 : null,
+				instrument: instrument?.name ?? null
+			}
+		});
+		// A non-genuine verdict opens (or raises) the supplier alert in this same transaction.
+		await alerts.openForScan(tx, actor, { id: scan.id, lotId, container, verdict, profile: result?.profile ?? null, reason });
+		return { scanId: scan.id, verdict, profile: result?.profile ?? null, ambiguous: result?.ambiguous ?? false, reason, modelVersion: result ? { id: model!.versionId, label: model!.label } : null, spectrumId: stored.id, sha256: stored.sha256, title: stored.title, status };
+	});
+	return { ...outcome, lotId, container, fileName: file.fileName };
+}
+
+interface ScanInsert {
+	lotId: number;
+	container: number;
+	spectrumId: number;
+	modelVersionId: number | null;
+	verdict: ScanVerdict;
+	profile: string | null;
+	ambiguous: boolean;
+	reason: string | null;
+	result: ScreenResult | null;
+	instrumentId: number | null;
+	rescreenOf: number | null;
+}
+
+// Non-finite numbers (e.g. an SPE limit that does not exist) become null: JSON has no NaN.
+const jsonText = (value: unknown) => JSON.stringify(value, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : ArrayBuffer.isView(v) ? Array.from(v as unknown as ArrayLike<number>) : v));
+
+async function insertScan(tx: Transaction, actor: Actor, s: ScanInsert) {
+	const [row] = await sequelize().query<{ id: number }>(
+		`INSERT INTO scans (lot_id, container, spectrum_id, model_version_id, verdict, profile, ambiguous, reason, result, instrument_id, created_by, rescreen_of)
+		 VALUES (:lotId, :container, :spectrumId, :modelVersionId, :verdict, :profile, :ambiguous, :reason, :result, :instrumentId, :createdBy, :rescreenOf) RETURNING id`,
+		{
+			replacements: { ...s, result: s.result ? jsonText(s.result) : null, createdBy: actor.id },
+			type: QueryTypes.SELECT,
+			transaction: tx
+		}
+	);
+	return { id: Number(row.id) };
+}
+
+/**
+ * Lot status from the latest valid scan of each sampled container: awaiting-scans until every one has one, then
+ * screened with identity meets (all genuine) or fails. A dispositioned or quarantined lot keeps its status; its
+ * identity still follows the scans. Audits a change. Exported for the disposition workflow.
+ */
+export async function recomputeStatus(
+	tx: Transaction,
+	lotId: number,
+	actor: Actor = { id: null, label: 'system', roles: [] },
+	locked?: Awaited<ReturnType<typeof lots.lotRow>>
+): Promise<{ status: LotStatus; identity: Identity; changed: boolean }> {
+	const lot = locked ?? (await lots.lotRow(lotId, tx, true));
+	const latest = await sequelize().query<{ container: number; verdict: ScanVerdict; valid: boolean }>(
+		`SELECT DISTINCT ON (container, valid) container, verdict, valid FROM (
+		   SELECT container, verdict, id, verdict IN (:valid) AS valid FROM scans WHERE lot_id = :lotId) s
+		  ORDER BY container, valid, id DESC`,
+		{ replacements: { lotId, valid: VALID_VERDICTS }, type: QueryTypes.SELECT, transaction: tx }
+	);
+	const validBy = new Map<number, ScanVerdict>();
+	const anyNotScreened = new Set<number>();
+	for (const r of latest) {
+		if (r.valid) validBy.set(Number(r.container), r.verdict);
+		else if (r.verdict === 'not-screened') anyNotScreened.add(Number(r.container));
+	}
+	const complete = lot.sampled.every((c) => validBy.has(c));
+	let identity: Identity = null;
+	if (complete) identity = lot.sampled.every((c) => validBy.get(c) === 'genuine') ? 'meets' : 'fails';
+	else if (lot.sampled.some((c) => !validBy.has(c) && anyNotScreened.has(c))) identity = 'not-screened';
+	let status = lot.status;
+	if (status === 'awaiting-scans' || status === 'screened') status = complete ? 'screened' : 'awaiting-scans';
+	const changed = status !== lot.status || identity !== lot.identity;
+	if (changed) {
+		await sequelize().query('UPDATE lots SET status = :status, identity = :identity WHERE id = :lotId', { replacements: { status, identity, lotId }, transaction: tx });
+		await audit.record(tx, actor, {
+			action: 'lot.status-changed',
+			entity: 'lot',
+			entityId: lotId,
+			before: { status: lot.status, identity: lot.identity },
+			after: { status, identity },
+			reason: complete ? (identity === 'meets' ? 'every sampled container is genuine' : 'a sampled container is not genuine') : 'screening incomplete'
+		});
+	}
+	return { status, identity, changed };
+}
+
+/**
+ * Screens again, with the material's approved version, the stored spectra of containers whose latest scan was not
+ * screened (no approved model at the time). Each adds a scan pointing at the same stored spectrum; nothing is overwritten.
+ */
+export async function rescreen(actor: Actor, lotRef: number | string, reason = 'an approved model version is now available') {
+	requireScanner(actor);
+	const lotId = await lots.resolve(lotRef);
+	const preview = await lots.lotRow(lotId);
+	const model = await approvedModel(preview.material_id);
+	if (!model) throw new ServiceError(409, 'no-approved-model', 'The material still has no approved model version: nothing can be screened');
+	return transaction(async (tx) => {
+		const lot = await lots.lotRow(lotId, tx, true);
+		if (isClosed(lot)) throw conflict(`Lot ${lot.internal_lot} is ${lot.status}: a dispositioned lot takes no more scans`);
+		const pending = await sequelize().query<{ id: number; container: number; spectrum_id: number; axis: number[]; intensities: number[]; unit: 'nm' | 'cm-1' | 'um'; instrument_id: number | null }>(
+			`SELECT DISTINCT ON (sc.container) sc.id, sc.container, sc.spectrum_id, sc.verdict, sp.axis, sp.intensities, sp.unit, sc.instrument_id
+			   FROM scans sc JOIN spectra sp ON sp.id = sc.spectrum_id WHERE sc.lot_id = :lotId ORDER BY sc.container, sc.id DESC`,
+			{ replacements: { lotId }, type: QueryTypes.SELECT, transaction: tx }
+		);
+		const redo = pending.filter((p) => (p as unknown as { verdict: string }).verdict === 'not-screened');
+		if (!redo.length) throw conflict('No container of this lot waits for screening');
+		const added: { scanId: number; container: number; verdict: ScanVerdict; profile: string | null }[] = [];
+		for (const p of redo) {
+			const result = screenStored(model.prep, { id: String(p.spectrum_id), axis: p.axis, values: p.intensities, unit: p.unit });
+			const scan = await insertScan(tx, actor, {
+				lotId,
+				container: p.container,
+				spectrumId: Number(p.spectrum_id),
+				modelVersionId: model.versionId,
+				verdict: result.verdict,
+				profile: result.profile,
+				ambiguous: result.ambiguous,
+				reason: result.reason,
+				result,
+				instrumentId: p.instrument_id,
+				rescreenOf: Number(p.id)
+			});
+			added.push({ scanId: scan.id, container: p.container, verdict: result.verdict, profile: result.profile });
+			await alerts.openForScan(tx, actor, { id: scan.id, lotId, container: p.container, verdict: result.verdict, profile: result.profile, reason: result.reason });
+		}
+		await audit.record(tx, actor, { action: 'lot.rescreened', entity: 'lot', entityId: lotId, after: { modelVersion: model.label, scans: added }, reason });
+		const status = await recomputeStatus(tx, lotId, actor);
+		return { lotId, scans: added, status };
+	});
+}
+
+/** One scan with what the evidence panel needs beyond the lot view: its spectrum and per-variable contributions. */
+export async function detail(lotRef: number | string, scanId: number) {
+	const lotId = await lots.resolve(lotRef);
+	const rows = await sequelize().query<Record<string, unknown>>(
+		`SELECT sc.id, sc.container, sc.verdict, sc.profile, sc.reason, sc.model_version_id, sp.axis, sp.intensities, sp.unit, sp.file_name, sp.title
+		   FROM scans sc JOIN spectra sp ON sp.id = sc.spectrum_id WHERE sc.id = :scanId AND sc.lot_id = :lotId`,
+		{ replacements: { scanId, lotId }, type: QueryTypes.SELECT }
+	);
+	const r = rows[0];
+	if (!r) throw notFound(`Scan ${scanId} of lot ${lotRef}`);
+	// Contributions are recomputed from the stored spectrum with the very artefact that screened it (deterministic).
+	const contributions: Record<string, { t2: number[]; spe: number[] }> = {};
+	const model = r.model_version_id ? await preparedVersion(Number(r.model_version_id)) : null;
+	const axis = (r.axis as (number | null)[]).map((x) => x ?? Number.NaN);
+	const values = (r.intensities as (number | null)[]).map((x) => x ?? Number.NaN);
+	if (model && axis.length > 1) {
+		const again = screen(model.prep, { id: String(r.id), axis, values, unit: r.unit as 'nm' | 'cm-1' | 'um' }, { contributions: true });
+		if (again.family?.contributions) contributions.family = plainContributions(again.family.contributions);
+		for (const [name, st] of Object.entries(again.classes)) if (st.contributions) contributions[name] = plainContributions(st.contributions);
+	}
+	return {
+		id: Number(r.id),
+		container: Number(r.container),
+		verdict: r.verdict as ScanVerdict,
+		profile: (r.profile as string | null) ?? null,
+		reason: (r.reason as string | null) ?? null,
+		modelVersionId: r.model_version_id ? Number(r.model_version_id) : null,
+		fileName: r.file_name as string,
+		title: (r.title as string | null) ?? null,
+		spectrum: { axis, values, unit: r.unit as string },
+		contributions
+	};
+}
+
+const finiteOrNull = (x: number) => (Number.isFinite(x) ? x : 0);
+function plainContributions(c: { t2: ArrayLike<number>; spe: ArrayLike<number> }) {
+	return { t2: Array.from(c.t2, finiteOrNull), spe: Array.from(c.spe, finiteOrNull) };
+}

@@ -1,0 +1,479 @@
+// Spectrum intake: parse an uploaded file, keep its bytes exactly (with SHA-256) and the parsed spectra beside them,
+// one transaction and one audit event per file. Library and lot workflows reuse `ingestFile` inside their own transaction.
+import { createHash } from 'node:crypto';
+import { QueryTypes, UniqueConstraintError } from 'sequelize';
+import { parseSpectrumFile, SpectrumFileError, type AxisUnit, type ParsedFile } from '../../spectra';
+import { sequelize, transaction, type Transaction } from '../db';
+import { hasRole, type Actor } from './actor';
+import * as audit from './audit';
+import { forbidden, invalid, notFound, ServiceError } from './errors';
+import * as instruments from './instruments';
+
+export type SpectrumContext = 'loose' | 'library' | 'lot';
+const CONTEXTS: SpectrumContext[] = ['loose', 'library', 'lot'];
+
+const MB = 1024 * 1024;
+const envNumber = (name: string, fallback: number) => {
+	const v = Number(process.env[name]);
+	return Number.isFinite(v) && v > 0 ? v : fallback;
+};
+/** Largest accepted file (LOTGATE_MAX_UPLOAD_MB, default 20 MB). Read per call so tests and ops can change it. */
+export const maxFileBytes = () => Math.round(envNumber('LOTGATE_MAX_UPLOAD_MB', 20) * MB);
+/** Most files in one request (LOTGATE_MAX_BATCH_FILES, default 200). */
+export const maxBatchFiles = () => Math.floor(envNumber('LOTGATE_MAX_BATCH_FILES', 200));
+/** Largest whole request (LOTGATE_MAX_BATCH_MB, default 200 MB): a batch is read into memory once before parsing. */
+export const maxBatchBytes = () => Math.round(envNumber('LOTGATE_MAX_BATCH_MB', 200) * MB);
+
+/** A refused file: the shared error shape plus the file (and line, where the parser knows it). */
+export class IntakeError extends ServiceError {
+	constructor(
+		status: ServiceError['status'],
+		code: string,
+		message: string,
+		readonly file: string,
+		readonly line?: number,
+		readonly existing?: { id: number; fileName: string; createdAt: string }
+	) {
+		super(status, code, message, 'file');
+		this.name = 'IntakeError';
+	}
+
+	toJSON() {
+		return {
+			code: this.code,
+			message: this.message,
+			file: this.file,
+			...(this.line !== undefined ? { line: this.line } : {}),
+			...(this.existing ? { existing: this.existing } : {})
+		};
+	}
+}
+
+// Empty, binary and unknown files are not spectra at all (415); the rest are spectra with a problem (400).
+const MEDIA_CODES = new Set(['empty', 'binary', 'unknown-format']);
+
+export interface IngestInput {
+	bytes: Uint8Array;
+	fileName: string;
+	/** For a session upload; an instrument token sets the instrument itself. */
+	instrumentId?: number | null;
+	context: SpectrumContext;
+	contextId?: number | null;
+	/** Keep non-finite values as gaps (stored as NULL) when the material's recipe allows them. */
+	allowGaps?: boolean;
+	minPoints?: number;
+}
+
+export interface StoredSpectrum {
+	id: number;
+	rowIndex: number;
+	sha256: string;
+	fileName: string;
+	format: ParsedFile['format'];
+	points: number;
+	axis: { from: number; to: number; unit: AxisUnit };
+	/** The row's id in a CSV matrix, else null. */
+	sourceId: string | null;
+	title: string | null;
+	technique: string | null;
+	acquiredAt: string | null;
+	meta: Record<string, string>;
+	instrumentId: number | null;
+	missing: number;
+}
+
+export function sha256Hex(bytes: Uint8Array) {
+	return createHash('sha256').update(bytes).digest('hex');
+}
+
+/** A float8[] literal; gaps (NaN/Inf, only present with allowGaps) become NULL elements. String(x) round-trips a double exactly. */
+function pgArray(values: ArrayLike<number>): string {
+	const parts = new Array<string>(values.length);
+	for (let i = 0; i < values.length; i++) parts[i] = Number.isFinite(values[i]) ? String(values[i]) : 'NULL';
+	return `{${parts.join(',')}}`;
+}
+
+const techniqueWord = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
+
+function mayUpload(actor: Actor) {
+	return actor.instrumentId != null || hasRole(actor, 'technician', 'chemometrician', 'admin');
+}
+
+/** The instrument a file comes from: the token's own, or the one named in the upload; refused when not qualified. */
+export async function sourceInstrument(actor: Actor, requested: number | string | null | undefined, tx?: Transaction) {
+	if (actor.instrumentId != null) {
+		if (requested != null && requested !== '') {
+			const named = await instruments.get(requested, tx).catch(() => null);
+			if (!named || named.id !== actor.instrumentId) throw invalid(`This token belongs to another instrument than "${requested}"`, 'instrument');
+		}
+		return instruments.assertQualified(actor.instrumentId, tx);
+	}
+	if (requested == null || requested === '') return null;
+	const found = await instruments.get(requested, tx).catch((e) => {
+		if (e instanceof ServiceError && e.status === 404) throw invalid(`Instrument "${requested}" is not registered`, 'instrument');
+		throw e;
+	});
+	return instruments.assertQualified(found.id, tx);
+}
+
+/** Parses without touching the database; a refusal names the file, the line where known, and the problem. */
+export function parseOrRefuse(bytes: Uint8Array, fileName: string, options: { allowGaps?: boolean; minPoints?: number; unit?: AxisUnit } = {}): ParsedFile {
+	if (bytes.length > maxFileBytes()) throw tooLarge(fileName, bytes.length);
+	try {
+		return parseSpectrumFile(bytes, fileName, options);
+	} catch (e) {
+		if (e instanceof SpectrumFileError) throw new IntakeError(MEDIA_CODES.has(e.code) ? 415 : 400, e.code, e.message, e.file, e.line);
+		throw e;
+	}
+}
+
+/** A timestamp PostgreSQL accepts, or null (the original text stays in meta). */
+function acquiredAtOf(text: string | null): string | null {
+	return text && !Number.isNaN(Date.parse(text)) ? text : null;
+}
+
+async function findDuplicate(tx: Transaction | undefined, context: SpectrumContext, contextId: number | null, sha256: string) {
+	const rows = await sequelize().query<{ id: string; file_name: string; created_at: Date }>(
+		`SELECT id, file_name, created_at FROM spectra
+		  WHERE sha256 = :sha256 AND context = :context AND coalesce(context_id, 0) = :contextId AND row_index = 0 LIMIT 1`,
+		{ replacements: { sha256, context, contextId: contextId ?? 0 }, type: QueryTypes.SELECT, transaction: tx }
+	);
+	return rows[0] ? { id: Number(rows[0].id), fileName: rows[0].file_name, createdAt: new Date(rows[0].created_at).toISOString() } : null;
+}
+
+const contextWords = (context: SpectrumContext, contextId: number | null) =>
+	context === 'loose' ? 'the loose intake' : context === 'library' ? `this library (material ${contextId})` : `this lot (${contextId})`;
+
+function duplicateError(fileName: string, context: SpectrumContext, contextId: number | null, existing: { id: number; fileName: string; createdAt: string }) {
+	return new IntakeError(
+		409,
+		'duplicate',
+		`${fileName}: the same bytes are already stored in ${contextWords(context, contextId)} as spectrum ${existing.id} ("${existing.fileName}", ${existing.createdAt.slice(0, 16).replace('T', ' ')} UTC); nothing is overwritten`,
+		fileName,
+		undefined,
+		existing
+	);
+}
+
+/**
+ * Stores one file: raw bytes and SHA-256, and one row per spectrum it holds (a CSV matrix holds many). The raw bytes
+ * are kept once, on the row with row_index 0; the other rows of the same file point to it by (context, sha256), so a
+ * large matrix is not stored once per row. Within `tx` when given (the caller's unit of work), else in its own.
+ */
+export async function ingestFile(actor: Actor, input: IngestInput, tx?: Transaction): Promise<StoredSpectrum[]> {
+	if (!mayUpload(actor)) throw forbidden('Only a technician, a chemometrician, an admin or an instrument token uploads spectra');
+	const fileName = (input.fileName ?? '').trim() || 'upload';
+	if (!CONTEXTS.includes(input.context)) throw invalid(`Unknown context "${input.context}"`, 'context');
+	const contextId = input.context === 'loose' ? null : (input.contextId ?? null);
+	if (input.context !== 'loose' && contextId == null) throw invalid(`A ${input.context} upload needs the ${input.context} it belongs to`, 'contextId');
+
+	const run = async (t: Transaction) => {
+		const instrument = await sourceInstrument(actor, input.instrumentId, t);
+		const parsed = parseOrRefuse(input.bytes, fileName, { allowGaps: input.allowGaps, minPoints: input.minPoints, unit: instrument?.axisUnit });
+		if (instrument) {
+			const other = parsed.spectra.find((s) => s.technique && s.technique !== instrument.technique);
+			if (other) {
+				throw new IntakeError(
+					400,
+					'wrong-technique',
+					`${fileName}: the file is a ${techniqueWord(other.technique!)} spectrum, but instrument ${instrument.name} measures ${techniqueWord(instrument.technique)}`,
+					fileName,
+					other.line
+				);
+			}
+		}
+		const sha256 = sha256Hex(input.bytes);
+		const existing = await findDuplicate(t, input.context, contextId, sha256);
+		if (existing) throw duplicateError(fileName, input.context, contextId, existing);
+
+		const stored: StoredSpectrum[] = [];
+		// Buffer.from over the same memory: no copy of a large file; pg sends it as a binary parameter.
+		const raw = Buffer.from(input.bytes.buffer, input.bytes.byteOffset, input.bytes.byteLength);
+		const empty = Buffer.alloc(0);
+		for (let rowIndex = 0; rowIndex < parsed.spectra.length; rowIndex++) {
+			const s = parsed.spectra[rowIndex];
+			const acquiredAt = acquiredAtOf(s.acquiredAt);
+			const meta = { ...s.meta, ...(s.acquiredAt && !acquiredAt ? { acquiredAtText: s.acquiredAt } : {}) };
+			const [row] = await sequelize().query<{ id: string }>(
+				`INSERT INTO spectra (sha256, raw, file_name, format, row_index, points, axis, intensities, unit, y_unit, title, technique,
+				                      acquired_at, meta, instrument_id, uploaded_by, context, context_id)
+				 VALUES ($sha256, $raw, $fileName, $format, $rowIndex, $points, $axis::float8[], $values::float8[], $unit, $yUnit, $title, $technique,
+				         $acquiredAt::timestamptz, $meta::jsonb, $instrumentId::integer, $uploadedBy::integer, $context, $contextId::integer)
+				 RETURNING id`,
+				{
+					bind: {
+						sha256,
+						raw: rowIndex === 0 ? raw : empty,
+						fileName,
+						format: parsed.format,
+						rowIndex,
+						points: s.axis.length,
+						axis: pgArray(s.axis),
+						values: pgArray(s.values),
+						unit: s.unit,
+						yUnit: s.yUnit ?? null,
+						title: s.title ?? null,
+						technique: s.technique ?? null,
+						acquiredAt,
+						meta: JSON.stringify(meta),
+						instrumentId: instrument?.id ?? null,
+						uploadedBy: actor.id,
+						context: input.context,
+						contextId
+					},
+					type: QueryTypes.SELECT,
+					transaction: t
+				}
+			);
+			stored.push({
+				id: Number(row.id),
+				rowIndex,
+				sha256,
+				fileName,
+				format: parsed.format,
+				points: s.axis.length,
+				axis: { from: s.axis[0], to: s.axis[s.axis.length - 1], unit: s.unit },
+				sourceId: s.id,
+				title: s.title,
+				technique: s.technique,
+				acquiredAt,
+				meta,
+				instrumentId: instrument?.id ?? null,
+				missing: s.missing.length
+			});
+		}
+		await audit.record(t, actor, {
+			action: 'spectrum.stored',
+			entity: 'spectrum',
+			entityId: stored[0].id,
+			after: {
+				fileName,
+				bytes: input.bytes.byteLength,
+				sha256,
+				format: parsed.format,
+				spectra: stored.length,
+				ids: stored.length > 20 ? [stored[0].id, stored[stored.length - 1].id] : stored.map((s) => s.id),
+				context: input.context,
+				contextId,
+				instrument: instrument?.name ?? null
+			}
+		});
+		return stored;
+	};
+
+	try {
+		return tx ? await run(tx) : await transaction(run);
+	} catch (e) {
+		// Two uploads of the same bytes at once: the unique index decides, and the loser hears who won.
+		if (e instanceof UniqueConstraintError) {
+			const existing = await findDuplicate(undefined, input.context, contextId, sha256Hex(input.bytes)).catch(() => null);
+			if (existing) throw duplicateError(fileName, input.context, contextId, existing);
+			throw new IntakeError(409, 'duplicate', `${fileName}: the same bytes are already stored in ${contextWords(input.context, contextId)}`, fileName);
+		}
+		throw e;
+	}
+}
+
+/** The same, in the argument order the library service bridges to. */
+export const ingestInTransaction = (tx: Transaction, actor: Actor, input: IngestInput) => ingestFile(actor, input, tx);
+
+export interface BatchFile {
+	name: string;
+	/** Known before reading (multipart File.size), so an oversized file is refused without being read. */
+	size: number;
+	/** Read one file at a time, so a batch is not held in memory twice over. */
+	read: () => Promise<Uint8Array> | Uint8Array;
+}
+
+export type BatchItem =
+	| { file: string; ok: true; spectra: StoredSpectrum[] }
+	| { file: string; ok: false; status: number; error: ReturnType<IntakeError['toJSON']> };
+
+const tooLarge = (name: string, size: number) =>
+	new IntakeError(413, 'too-large', `${name}: the file is ${(size / MB).toFixed(1)} MB; the limit is ${maxFileBytes() / MB} MB`, name);
+
+/** Each file in its own transaction: a refused file leaves no row, and the others are still stored. */
+export async function ingestBatch(
+	actor: Actor,
+	files: BatchFile[],
+	options: { instrument?: number | string | null; context?: SpectrumContext; contextId?: number | null; allowGaps?: boolean } = {}
+): Promise<BatchItem[]> {
+	if (!mayUpload(actor)) throw forbidden('Only a technician, a chemometrician, an admin or an instrument token uploads spectra');
+	if (!files.length) throw invalid('Choose at least one spectrum file (multipart field "file")', 'file');
+	if (files.length > maxBatchFiles()) {
+		throw new ServiceError(400, 'too-many-files', `${files.length} files in one upload; the limit is ${maxBatchFiles()}: send them in smaller batches`, 'file');
+	}
+	// The source is checked once, up front: an unqualified instrument refuses the whole batch with its reason.
+	const instrument = await sourceInstrument(actor, options.instrument ?? null);
+	const out: BatchItem[] = [];
+	for (const f of files) {
+		try {
+			if (f.size > maxFileBytes()) throw tooLarge(f.name, f.size);
+			const spectra = await ingestFile(actor, {
+				bytes: await f.read(),
+				fileName: f.name,
+				instrumentId: instrument?.id ?? null,
+				context: options.context ?? 'loose',
+				contextId: options.contextId ?? null,
+				allowGaps: options.allowGaps
+			});
+			out.push({ file: f.name, ok: true, spectra });
+		} catch (e) {
+			if (e instanceof IntakeError) out.push({ file: f.name, ok: false, status: e.status, error: e.toJSON() });
+			else if (e instanceof ServiceError && e.status !== 403 && e.status !== 401 && e.status !== 503) {
+				out.push({ file: f.name, ok: false, status: e.status, error: { code: e.code, message: `${f.name}: ${e.message}`, file: f.name } });
+			} else throw e;
+		}
+	}
+	return out;
+}
+
+export interface SpectrumRecord {
+	id: number;
+	sha256: string;
+	fileName: string;
+	format: string;
+	rowIndex: number;
+	points: number;
+	unit: AxisUnit;
+	yUnit: string | null;
+	title: string | null;
+	technique: string | null;
+	acquiredAt: string | null;
+	meta: Record<string, string>;
+	instrumentId: number | null;
+	instrument: string | null;
+	uploadedBy: number | null;
+	uploader: string | null;
+	context: SpectrumContext;
+	contextId: number | null;
+	createdAt: string;
+	bytes: number;
+}
+
+interface Row {
+	id: string;
+	sha256: string;
+	file_name: string;
+	format: string;
+	row_index: number;
+	points: number;
+	unit: AxisUnit;
+	y_unit: string | null;
+	title: string | null;
+	technique: string | null;
+	acquired_at: Date | null;
+	meta: Record<string, string>;
+	instrument_id: number | null;
+	instrument: string | null;
+	uploaded_by: number | null;
+	uploader: string | null;
+	context: SpectrumContext;
+	context_id: number | null;
+	created_at: Date;
+	bytes: string | number;
+}
+
+const iso = (d: Date | null) => (d ? new Date(d).toISOString() : null);
+function toRecord(r: Row): SpectrumRecord {
+	return {
+		id: Number(r.id),
+		sha256: r.sha256,
+		fileName: r.file_name,
+		format: r.format,
+		rowIndex: r.row_index,
+		points: r.points,
+		unit: r.unit,
+		yUnit: r.y_unit,
+		title: r.title,
+		technique: r.technique,
+		acquiredAt: iso(r.acquired_at),
+		meta: r.meta ?? {},
+		instrumentId: r.instrument_id,
+		instrument: r.instrument,
+		uploadedBy: r.uploaded_by,
+		uploader: r.uploader,
+		context: r.context,
+		contextId: r.context_id,
+		createdAt: iso(r.created_at)!,
+		bytes: Number(r.bytes)
+	};
+}
+
+// The byte count comes from the row that holds the file (row_index 0), so every spectrum of a matrix reports the file's size.
+const RECORD_SQL = `
+  SELECT sp.id, sp.sha256, sp.file_name, sp.format, sp.row_index, sp.points, sp.unit, sp.y_unit, sp.title, sp.technique, sp.acquired_at,
+         sp.meta, sp.instrument_id, i.name AS instrument, sp.uploaded_by, u.name AS uploader, sp.context, sp.context_id, sp.created_at,
+         CASE WHEN sp.row_index = 0 THEN octet_length(sp.raw) ELSE
+           (SELECT octet_length(f.raw) FROM spectra f WHERE f.sha256 = sp.sha256 AND f.context = sp.context
+              AND coalesce(f.context_id, 0) = coalesce(sp.context_id, 0) AND f.row_index = 0 LIMIT 1) END AS bytes
+    FROM spectra sp
+    LEFT JOIN instruments i ON i.id = sp.instrument_id
+    LEFT JOIN users u ON u.id = sp.uploaded_by`;
+
+function requireReader(actor: Actor) {
+	if (!hasRole(actor, 'technician', 'chemometrician', 'qa', 'admin')) throw forbidden('Your role does not give access to stored spectra');
+}
+
+const spectrumId = (id: number | string) => {
+	const n = Number(id);
+	if (!Number.isInteger(n) || n < 1) throw notFound(`Spectrum ${id}`);
+	return n;
+};
+
+/** Metadata, axis and values (gaps come back as null). */
+export async function get(actor: Actor, id: number | string) {
+	requireReader(actor);
+	const n = spectrumId(id);
+	const rows = await sequelize().query<Row & { axis: number[]; intensities: (number | null)[] }>(
+		`SELECT r.*, sp.axis, sp.intensities FROM (${RECORD_SQL} WHERE sp.id = :id) r JOIN spectra sp ON sp.id = r.id`,
+		{ replacements: { id: n }, type: QueryTypes.SELECT }
+	);
+	if (!rows[0]) throw notFound(`Spectrum ${id}`);
+	return { ...toRecord(rows[0]), axis: rows[0].axis, values: rows[0].intensities };
+}
+
+/** The exact uploaded bytes of the file a spectrum came from. */
+export async function raw(actor: Actor, id: number | string) {
+	requireReader(actor);
+	const n = spectrumId(id);
+	const rows = await sequelize().query<{ raw: Buffer; file_name: string; sha256: string }>(
+		`SELECT f.raw, f.file_name, f.sha256 FROM spectra sp
+		   JOIN spectra f ON f.sha256 = sp.sha256 AND f.context = sp.context AND coalesce(f.context_id, 0) = coalesce(sp.context_id, 0) AND f.row_index = 0
+		  WHERE sp.id = :id LIMIT 1`,
+		{ replacements: { id: n }, type: QueryTypes.SELECT }
+	);
+	if (!rows[0]) throw notFound(`Spectrum ${id}`);
+	return { bytes: rows[0].raw, fileName: rows[0].file_name, sha256: rows[0].sha256 };
+}
+
+const SORTS: Record<string, string> = {
+	id: 'sp.id',
+	file: 'sp.file_name',
+	format: 'sp.format',
+	points: 'sp.points',
+	instrument: 'i.name',
+	uploader: 'u.name',
+	created: 'sp.created_at'
+};
+
+/** Stored spectra of one context (default: loose uploads), paged and sorted in the database. */
+export async function list(actor: Actor, query: { context?: SpectrumContext; contextId?: number; page?: number; pageSize?: number; sort?: string; q?: string } = {}) {
+	requireReader(actor);
+	const context = query.context && CONTEXTS.includes(query.context) ? query.context : 'loose';
+	const pageSize = Math.min(Math.max(Math.floor(query.pageSize ?? 25), 1), 200);
+	const page = Math.max(Math.floor(query.page ?? 1), 1);
+	const [column, direction] = (query.sort ?? 'created:desc').split(':');
+	const order = `${SORTS[column] ?? SORTS.created} ${direction === 'asc' || (!direction && column !== 'created') ? 'ASC' : 'DESC'}, sp.id DESC`;
+	const where = `sp.context = :context AND (:contextId::integer IS NULL OR sp.context_id = :contextId::integer)
+	               AND (:q::text IS NULL OR sp.file_name ILIKE '%' || :q::text || '%' OR sp.title ILIKE '%' || :q::text || '%')`;
+	const replacements = { context, contextId: query.contextId ?? null, q: query.q?.trim() ? query.q.trim().replace(/[%_\\]/g, '\\$&') : null };
+	const [rows, total] = await Promise.all([
+		sequelize().query<Row>(`${RECORD_SQL} WHERE ${where} ORDER BY ${order} LIMIT :limit OFFSET :offset`, {
+			replacements: { ...replacements, limit: pageSize, offset: (page - 1) * pageSize },
+			type: QueryTypes.SELECT
+		}),
+		sequelize().query<{ n: string }>(`SELECT count(*) AS n FROM spectra sp WHERE ${where}`, { replacements, type: QueryTypes.SELECT })
+	]);
+	return { rows: rows.map(toRecord), total: Number(total[0].n), page, pageSize, sort: `${column in SORTS ? column : 'created'}${direction ? `:${direction}` : ''}` };
+}

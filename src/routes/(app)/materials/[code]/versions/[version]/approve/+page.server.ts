@@ -1,0 +1,43 @@
+import { fail, redirect } from '@sveltejs/kit';
+import { superValidate } from 'sveltekit-superforms';
+import { zod } from 'sveltekit-superforms/adapters';
+import { requireUser } from '$lib/server/guard';
+import * as versions from '$lib/server/services/model-versions';
+import { refuse } from '../../../../service-errors.server';
+import { versionIdFor } from '../version.server';
+import type { Actions, PageServerLoad } from './$types';
+
+export const load = (async (event) => {
+	const actor = requireUser(event, 'qa');
+	const id = await versionIdFor(event.params);
+	const version = await versions.get(id);
+	const list = await versions.listForMaterial(version.materialId);
+	const form = await superValidate(zod(versions.approvalSchema));
+	form.data.meaning = versions.APPROVAL_MEANING;
+	return {
+		version,
+		current: list.find((v) => v.state === 'approved') ?? null,
+		isBuilder: version.builtBy.id === actor.id,
+		form,
+		meaning: versions.APPROVAL_MEANING
+	};
+}) satisfies PageServerLoad;
+
+export const actions = {
+	default: async (event) => {
+		const actor = requireUser(event, 'qa');
+		const id = await versionIdFor(event.params);
+		const form = await superValidate(event.request, zod(versions.approvalSchema));
+		if (!form.valid) {
+			form.data.password = '';
+			return fail(400, { form });
+		}
+		try {
+			await versions.approve(actor, id, form.data);
+		} catch (error) {
+			form.data.password = '';
+			return refuse(form, error);
+		}
+		redirect(303, `/materials/${event.params.code}/versions/${event.params.version}`);
+	}
+} satisfies Actions;

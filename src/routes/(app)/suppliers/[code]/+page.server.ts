@@ -1,0 +1,95 @@
+import { error, fail } from '@sveltejs/kit';
+import { message, superValidate, type SuperValidated } from 'sveltekit-superforms';
+import { zod } from 'sveltekit-superforms/adapters';
+import { z } from 'zod';
+import { requireUser } from '$lib/server/guard';
+import { hasRole } from '$lib/server/services/actor';
+import { ServiceError } from '$lib/server/services/errors';
+import * as scorecards from '$lib/server/services/scorecards';
+import * as signatures from '$lib/server/services/signatures';
+import * as supplierStatus from '$lib/server/services/supplier-status';
+import type { Actions, PageServerLoad } from './$types';
+
+const approveSchema = signatures.signatureFieldsSchema.extend({ requestId: z.coerce.number().int().positive() });
+const declineSchema = supplierStatus.declineSchema.extend({ requestId: z.coerce.number().int().positive() });
+const STATUS_MEANING = 'supplier status change approved';
+
+export const load = (async (event) => {
+	const actor = requireUser(event);
+	const card = await scorecards.scorecard(event.params.code).catch((e) => {
+		if (e instanceof ServiceError && e.status === 404) error(404, e.message);
+		throw e;
+	});
+	const requests = await supplierStatus.forSupplier(card.supplier.id);
+	const pending = requests.find((r) => r.state === 'pending') ?? null;
+	const approveForm = await superValidate(zod(approveSchema), { id: 'approve-status' });
+	approveForm.data.meaning = STATUS_MEANING;
+	if (pending) approveForm.data.requestId = pending.id;
+	const declineForm = await superValidate(zod(declineSchema), { id: 'decline-status' });
+	if (pending) declineForm.data.requestId = pending.id;
+	return {
+		card,
+		requests,
+		pending,
+		canRequest: hasRole(actor, 'procurement') && !pending,
+		canCosign: hasRole(actor, 'qa') && !!pending && pending.requestedById !== actor.id,
+		requestForm: await superValidate(zod(supplierStatus.requestSchema), { id: 'request-status' }),
+		approveForm,
+		declineForm,
+		meaning: STATUS_MEANING
+	};
+}) satisfies PageServerLoad;
+
+// eslint-disable-next-line @typescript-eslint/no-explicit-any
+function refuse(form: SuperValidated<any, any>, e: unknown) {
+	if ('password' in form.data) form.data.password = '';
+	if (e instanceof ServiceError) {
+		const status = ([401, 403, 409, 423] as number[]).includes(e.status) ? e.status : 400;
+		if (e.field && e.field in form.data) {
+			(form.errors as Record<string, string[]>)[e.field] = [e.message];
+			return fail(status, { form });
+		}
+		return message(form, e.message, { status: status as 400 });
+	}
+	throw e;
+}
+
+export const actions = {
+	requestStatus: async (event) => {
+		const actor = requireUser(event, 'procurement');
+		const form = await superValidate(event.request, zod(supplierStatus.requestSchema), { id: 'request-status' });
+		if (!form.valid) return fail(400, { form });
+		try {
+			const r = await supplierStatus.request(actor, event.params.code, form.data);
+			return message(form, `Requested ${r.fromStatus} → ${r.toStatus}; a QA manager must co-sign before it applies.`);
+		} catch (e) {
+			return refuse(form, e);
+		}
+	},
+	approveStatus: async (event) => {
+		const actor = requireUser(event, 'qa');
+		const form = await superValidate(event.request, zod(approveSchema), { id: 'approve-status' });
+		if (!form.valid) {
+			form.data.password = '';
+			return fail(400, { form });
+		}
+		try {
+			const r = await supplierStatus.approve(actor, form.data.requestId, form.data);
+			form.data.password = '';
+			return message(form, `Co-signed: the supplier is now ${r.toStatus}.`);
+		} catch (e) {
+			return refuse(form, e);
+		}
+	},
+	declineStatus: async (event) => {
+		const actor = requireUser(event, 'qa');
+		const form = await superValidate(event.request, zod(declineSchema), { id: 'decline-status' });
+		if (!form.valid) return fail(400, { form });
+		try {
+			await supplierStatus.decline(actor, form.data.requestId, form.data.note);
+			return message(form, 'Declined.');
+		} catch (e) {
+			return refuse(form, e);
+		}
+	}
+} satisfies Actions;

@@ -1,0 +1,46 @@
+import { json } from '@sveltejs/kit';
+import { handler, requireActor } from '$lib/server/api';
+import { invalid, ServiceError } from '$lib/server/services/errors';
+import * as lots from '$lib/server/services/lots';
+import * as scans from '$lib/server/services/scans';
+import type { RequestHandler } from './$types';
+
+const MAX_BYTES = 20 * 1024 * 1024;
+
+/** Every scan of the lot, with verdict and statistics (the same list GET /api/v1/lots/{id} holds). */
+export const GET: RequestHandler = handler(async (event) => {
+	requireActor(event, 'technician', 'chemometrician', 'qa', 'procurement', 'admin');
+	const lot = await lots.get(event.params.id);
+	return json({ lotId: lot.id, internalLot: lot.internalLot, scans: lot.scans });
+});
+
+/**
+ * multipart/form-data: `file` (JCAMP-DX or CSV) and `container` (1..N, in the plan); optional `instrumentId` for a session.
+ * `Authorization: Bearer <instrument token>` or a technician/admin session. 201 with the verdict and the lot's status.
+ */
+export const POST: RequestHandler = handler(async (event) => {
+	const actor = event.locals.actor?.instrumentId != null ? event.locals.actor : requireActor(event, 'technician', 'admin');
+	if (!actor) throw new ServiceError(401, 'unauthenticated', 'Sign in, or send an instrument token');
+	const type = event.request.headers.get('content-type') ?? '';
+	if (!type.toLowerCase().startsWith('multipart/form-data')) throw new ServiceError(415, 'unsupported-media-type', 'Send multipart/form-data with the fields file and container');
+	const length = Number(event.request.headers.get('content-length') ?? 0);
+	if (length > MAX_BYTES) throw new ServiceError(413, 'too-large', `The upload is larger than ${MAX_BYTES / 1024 / 1024} MB`);
+	let form: FormData;
+	try {
+		form = await event.request.formData();
+	} catch {
+		throw invalid('The multipart body could not be read', 'file');
+	}
+	const file = form.get('file');
+	if (!(file instanceof File)) throw invalid('The field "file" with a spectrum file is missing', 'file');
+	const container = form.get('container');
+	if (container == null || container === '') throw invalid('The field "container" (the container number) is missing', 'container');
+	const instrument = form.get('instrumentId');
+	const added = await scans.add(actor, event.params.id, {
+		bytes: new Uint8Array(await file.arrayBuffer()),
+		fileName: file.name || 'upload',
+		container: String(container),
+		instrumentId: instrument ? Number(instrument) : null
+	});
+	return json(added, { status: 201 });
+});

@@ -1,0 +1,19 @@
+import { json } from '@sveltejs/kit';
+import { handler, readJson, requireActor } from '$lib/server/api';
+import * as materials from '$lib/server/services/materials';
+import type { RequestHandler } from './$types';
+
+export const GET: RequestHandler = handler(async (event) => {
+	requireActor(event, 'technician', 'chemometrician', 'qa', 'procurement', 'admin');
+	const material = await materials.get(event.params.id);
+	return json({ rows: await materials.classes(material.id) });
+});
+
+/** { name, kind: "genuine" | "suspect", description } — chemometrician or admin. */
+export const POST: RequestHandler = handler(async (event) => {
+	const actor = requireActor(event, 'chemometrician', 'admin');
+	const material = await materials.get(event.params.id);
+	const body = await readJson(event.request);
+	const created = await materials.addClass(actor, material.id, materials.classSchema.parse(body), typeof body.reason === 'string' ? body.reason : undefined);
+	return json(created, { status: 201 });
+});
