@@ -17,7 +17,9 @@ const env: NodeJS.ProcessEnv = {
 	PORT: String(port),
 	HOST: process.env.HOST ?? '127.0.0.1',
 	// adapter-node assumes https without ORIGIN, which would refuse every form post on plain local http.
-	ORIGIN: process.env.ORIGIN ?? `http://127.0.0.1:${port}`
+	ORIGIN: process.env.ORIGIN ?? `http://127.0.0.1:${port}`,
+	// adapter-node refuses bodies over 512 kB by default; the intake applies its own per-file limit.
+	BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? '256M'
 };
 Object.assign(process.env, env);
 

@@ -9,6 +9,7 @@ const ITEMS: NavItem[] = [
 	{ href: '/', label: 'Home' },
 	{ href: '/lots', label: 'Lots' },
 	{ href: '/materials', label: 'Materials' },
+	{ href: '/intake', label: 'Intake' },
 	{ href: '/suppliers', label: 'Suppliers' },
 	{ href: '/alerts', label: 'Alerts' },
 	{ href: '/audit', label: 'Audit trail' },

@@ -16,6 +16,7 @@ interface AreaRule {
 // First match wins; paths not listed need only a signed-in user.
 export const AREA_RULES: AreaRule[] = [
 	{ prefix: '/admin', roles: ['admin'] },
+	{ prefix: '/intake', roles: ['technician', 'chemometrician', 'qa', 'admin'] },
 	{ prefix: '/api/v1/admin', roles: ['admin'] },
 	{ prefix: '/api/v1/users', roles: ['admin'] },
 	{ prefix: '/api/v1/instruments', roles: ['admin'] },

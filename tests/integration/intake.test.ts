@@ -1,6 +1,7 @@
 // Spectra intake: the service, and the request path (the real hooks — identity, token check, role guard — then the route).
 import { createHash } from 'node:crypto';
 import type { RequestEvent } from '@sveltejs/kit';
+// @ts-expect-error the internal entry ships no module typings; it is the store `sequence()` reads
 import { with_request_store } from '@sveltejs/kit/internal/server';
 import { encode } from '@auth/core/jwt';
 import { QueryTypes } from 'sequelize';
@@ -12,6 +13,7 @@ import * as instruments from '../../src/lib/server/services/instruments';
 import * as spectra from '../../src/lib/server/services/spectra';
 import { makeUser, rootActor, unique } from '../support/factories';
 import { csvXy, jcampFile, truncatedJcamp } from '../support/intake-files';
+import { parseSpectrumFile } from '../../src/lib/spectra';
 
 type Handler = (event: RequestEvent) => Promise<Response>;
 const sha = (b: Uint8Array) => createHash('sha256').update(b).digest('hex');
@@ -169,6 +171,24 @@ describe('spectra service', () => {
 		const raw = await spectra.raw(tech, stored[2].id);
 		expect(raw.sha256).toBe(sha(bytes));
 		expect(Buffer.compare(raw.bytes, Buffer.from(bytes))).toBe(0);
+	});
+
+	it('stores axis and values exactly, and a gap as NULL when the recipe allows gaps', async () => {
+		const bytes = jcampFile(800);
+		const parsed = parseSpectrumFile(bytes, 'x.jdx');
+		const [s] = await spectra.ingestFile(tech, { bytes, fileName: `${unique('exact')}.jdx`, context: 'loose' });
+		const got = await spectra.get(tech, s.id);
+		expect(got.axis).toEqual(Array.from(parsed.spectra[0].axis));
+		expect(got.values).toEqual(Array.from(parsed.spectra[0].values));
+
+		const lines = ['wavelength_nm,absorbance', ...Array.from({ length: 80 }, (_, i) => `${1200 + 5 * i},${i === 10 ? 'NaN' : (0.5 + i / 1000).toFixed(4)}`)];
+		const gappy = new TextEncoder().encode(lines.join('\n'));
+		await expect(spectra.ingestFile(tech, { bytes: gappy, fileName: `${unique('gap')}.csv`, context: 'loose' })).rejects.toMatchObject({ status: 400, code: 'non-finite' });
+		const [g] = await spectra.ingestFile(tech, { bytes: gappy, fileName: `${unique('gap')}.csv`, context: 'loose', allowGaps: true });
+		expect(g.missing).toBe(1);
+		const back = await spectra.get(tech, g.id);
+		expect(back.values[10]).toBeNull();
+		expect(back.values[11]).toBe(0.511);
 	});
 
 	it('only an admin manages instruments and tokens; tokens are stored hashed and audited', async () => {

@@ -18,7 +18,8 @@ export default async function setup(project: TestProject) {
 		LOTGATE_TEST: '1',
 		PORT: String(port),
 		HOST: '127.0.0.1',
-		ORIGIN: `http://127.0.0.1:${port}`
+		ORIGIN: `http://127.0.0.1:${port}`,
+		BODY_SIZE_LIMIT: '256M'
 	};
 	Object.assign(process.env, { DATABASE_URL: url });
 	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');
@@ -31,6 +32,10 @@ export default async function setup(project: TestProject) {
 	if (process.env.LOTGATE_E2E_SKIP_BUILD !== '1') {
 		const build = spawnSync('npx', ['vite', 'build', '--logLevel', 'error'], { cwd: projectRoot, stdio: 'inherit', env });
 		if (build.status !== 0) throw new Error('vite build failed');
+	}
+	// A server left over on this port would answer instead of ours, against another database.
+	if (await fetch(`http://127.0.0.1:${port}/login`).then(() => true, () => false)) {
+		throw new Error(`port ${port} is already in use: stop that server or set LOTGATE_E2E_PORT`);
 	}
 	const services = await import('../../scripts/lib/services');
 	const mail = await services.startMailFake(env);

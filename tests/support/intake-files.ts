@@ -45,7 +45,7 @@ export function largeJcamp(megabytes: number): Uint8Array {
 		for (let k = 0; k < perLine; k++) s += ` ${300000 + ((x * 7 + k * 13) % 5000)}`;
 		return s;
 	};
-	const start = 1_000_000;
+	const start = 4_000_000;
 	const approxLine = lineText(start).length + 1;
 	const lines = Math.ceil((megabytes * 1024 * 1024) / approxLine);
 	const n = lines * perLine;

@@ -189,16 +189,6 @@ export async function stranded(olderThanSeconds = 60, limit = 50): Promise<numbe
 	return rows.map((r) => Number(r.id));
 }
 
-/** Puts a failed message back in the queue (an admin's "send again"). */
-export async function retry(outboxId: number) {
-	const [, meta] = await sequelize().query("UPDATE mail_outbox SET state = 'queued', attempts = 0, last_attempt_at = NULL WHERE id = :id AND state = 'failed'", {
-		replacements: { id: outboxId }
-	});
-	const changed = (meta as { rowCount?: number })?.rowCount ?? 0;
-	if (changed && dispatcher) await dispatcher(outboxId);
-	return changed > 0;
-}
-
 const toView = (r: OutboxRow): OutboxView => ({
 	id: Number(r.id),
 	kind: r.kind,

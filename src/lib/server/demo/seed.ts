@@ -88,5 +88,6 @@ export async function seedDemo(log: (line: string) => void = console.log) {
 	// Later workflows (library, models, lots) add their demo steps here, each idempotent.
 	await (await import('./method-development')).seedMethodDevelopment((await import('../../demo')).demoScenario().libraryFiles, demoPassword(), log);
 	await (await import('./lots-demo')).seedDemoLots(log);
+	await (await import('./disposition-demo')).seedDemoDispositions(demoPassword(), log);
 	log(`[seed] demo scenario "${DEMO_COMPANY}" is in place`);
 }

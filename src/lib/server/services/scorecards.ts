@@ -15,6 +15,7 @@ export interface MonthPoint {
 	passRate: number | null;
 }
 
+/** The trend covers the `months` months up to the supplier's latest delivery (or this month without any). */
 export async function scorecard(supplierRef: string | number, options: { months?: number } = {}) {
 	const supplier = await suppliers.get(supplierRef);
 	const months = Math.min(Math.max(options.months ?? 12, 1), 60);
@@ -51,7 +52,8 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		        count(l.id) AS received,
 		        count(l.id) FILTER (WHERE l.identity = 'meets') AS meets,
 		        count(l.id) FILTER (WHERE l.identity = 'fails') AS fails
-		   FROM generate_series(date_trunc('month', current_date) - make_interval(months => :back), date_trunc('month', current_date), interval '1 month') AS m(month)
+		   FROM (SELECT date_trunc('month', coalesce((SELECT max(received_at) FROM lots WHERE supplier_id = :id), current_date)) AS last) w,
+		        generate_series(w.last - make_interval(months => :back), w.last, interval '1 month') AS m(month)
 		   LEFT JOIN lots l ON l.supplier_id = :id AND date_trunc('month', l.received_at) = m.month
 		  GROUP BY m.month ORDER BY m.month`,
 		{ replacements: { id: supplier.id, back: months - 1 }, type: QueryTypes.SELECT }

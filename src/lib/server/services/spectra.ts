@@ -86,11 +86,33 @@ export function sha256Hex(bytes: Uint8Array) {
 	return createHash('sha256').update(bytes).digest('hex');
 }
 
-/** A float8[] literal; gaps (NaN/Inf, only present with allowGaps) become NULL elements. String(x) round-trips a double exactly. */
-function pgArray(values: ArrayLike<number>): string {
-	const parts = new Array<string>(values.length);
-	for (let i = 0; i < values.length; i++) parts[i] = Number.isFinite(values[i]) ? String(values[i]) : 'NULL';
-	return `{${parts.join(',')}}`;
+/**
+ * A float8[] in PostgreSQL's binary array format (what array_recv reads): exact doubles, 12 bytes a point, and no
+ * text form of a large spectrum held in memory. Gaps (NaN/Inf, only present with allowGaps) become NULL elements.
+ */
+export function float8ArrayBinary(values: ArrayLike<number>): Buffer {
+	const n = values.length;
+	let nulls = 0;
+	for (let i = 0; i < n; i++) if (!Number.isFinite(values[i])) nulls++;
+	const buf = Buffer.allocUnsafe(20 + 12 * (n - nulls) + 4 * nulls);
+	buf.writeInt32BE(1, 0); // one dimension
+	buf.writeInt32BE(nulls ? 1 : 0, 4);
+	buf.writeInt32BE(701, 8); // element type: float8
+	buf.writeInt32BE(n, 12);
+	buf.writeInt32BE(1, 16); // lower bound
+	let at = 20;
+	for (let i = 0; i < n; i++) {
+		const v = values[i];
+		if (Number.isFinite(v)) {
+			buf.writeInt32BE(8, at);
+			buf.writeDoubleBE(v, at + 4);
+			at += 12;
+		} else {
+			buf.writeInt32BE(-1, at);
+			at += 4;
+		}
+	}
+	return buf;
 }
 
 const techniqueWord = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
@@ -160,28 +182,35 @@ function duplicateError(fileName: string, context: SpectrumContext, contextId: n
  * are kept once, on the row with row_index 0; the other rows of the same file point to it by (context, sha256), so a
  * large matrix is not stored once per row. Within `tx` when given (the caller's unit of work), else in its own.
  */
-export async function ingestFile(actor: Actor, input: IngestInput, tx?: Transaction): Promise<StoredSpectrum[]> {
+export function ingestFile(actor: Actor, input: IngestInput, tx?: Transaction): Promise<StoredSpectrum[]> {
+	return ingest(actor, input, tx);
+}
+
+/** `checked`: the source instrument already resolved and checked by the caller for the whole batch. */
+async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checked?: { instrument: instruments.PublicInstrument | null }): Promise<StoredSpectrum[]> {
 	if (!mayUpload(actor)) throw forbidden('Only a technician, a chemometrician, an admin or an instrument token uploads spectra');
 	const fileName = (input.fileName ?? '').trim() || 'upload';
 	if (!CONTEXTS.includes(input.context)) throw invalid(`Unknown context "${input.context}"`, 'context');
 	const contextId = input.context === 'loose' ? null : (input.contextId ?? null);
 	if (input.context !== 'loose' && contextId == null) throw invalid(`A ${input.context} upload needs the ${input.context} it belongs to`, 'contextId');
 
-	const run = async (t: Transaction) => {
-		const instrument = await sourceInstrument(actor, input.instrumentId, t);
-		const parsed = parseOrRefuse(input.bytes, fileName, { allowGaps: input.allowGaps, minPoints: input.minPoints, unit: instrument?.axisUnit });
-		if (instrument) {
-			const other = parsed.spectra.find((s) => s.technique && s.technique !== instrument.technique);
-			if (other) {
-				throw new IntakeError(
-					400,
-					'wrong-technique',
-					`${fileName}: the file is a ${techniqueWord(other.technique!)} spectrum, but instrument ${instrument.name} measures ${techniqueWord(instrument.technique)}`,
-					fileName,
-					other.line
-				);
-			}
+	// Source and parse before the transaction: no connection is held while the CPU decodes the file.
+	const instrument = checked?.instrument !== undefined ? checked.instrument : await sourceInstrument(actor, input.instrumentId, tx);
+	const parsed = parseOrRefuse(input.bytes, fileName, { allowGaps: input.allowGaps, minPoints: input.minPoints, unit: instrument?.axisUnit });
+	if (instrument) {
+		const other = parsed.spectra.find((s) => s.technique && s.technique !== instrument.technique);
+		if (other) {
+			throw new IntakeError(
+				400,
+				'wrong-technique',
+				`${fileName}: the file is a ${techniqueWord(other.technique!)} spectrum, but instrument ${instrument.name} measures ${techniqueWord(instrument.technique)}`,
+				fileName,
+				other.line
+			);
 		}
+	}
+
+	const run = async (t: Transaction) => {
 		const sha256 = sha256Hex(input.bytes);
 		const existing = await findDuplicate(t, input.context, contextId, sha256);
 		if (existing) throw duplicateError(fileName, input.context, contextId, existing);
@@ -208,8 +237,8 @@ export async function ingestFile(actor: Actor, input: IngestInput, tx?: Transact
 						format: parsed.format,
 						rowIndex,
 						points: s.axis.length,
-						axis: pgArray(s.axis),
-						values: pgArray(s.values),
+						axis: float8ArrayBinary(s.axis),
+						values: float8ArrayBinary(s.values),
 						unit: s.unit,
 						yUnit: s.yUnit ?? null,
 						title: s.title ?? null,
@@ -289,6 +318,9 @@ export type BatchItem =
 	| { file: string; ok: true; spectra: StoredSpectrum[] }
 	| { file: string; ok: false; status: number; error: ReturnType<IntakeError['toJSON']> };
 
+// Kept below the pool size so a batch leaves connections for other requests.
+const BATCH_CONCURRENCY = 3;
+
 const tooLarge = (name: string, size: number) =>
 	new IntakeError(413, 'too-large', `${name}: the file is ${(size / MB).toFixed(1)} MB; the limit is ${maxFileBytes() / MB} MB`, name);
 
@@ -305,26 +337,36 @@ export async function ingestBatch(
 	}
 	// The source is checked once, up front: an unqualified instrument refuses the whole batch with its reason.
 	const instrument = await sourceInstrument(actor, options.instrument ?? null);
-	const out: BatchItem[] = [];
-	for (const f of files) {
+	const out: BatchItem[] = new Array(files.length);
+	const one = async (f: BatchFile): Promise<BatchItem> => {
 		try {
 			if (f.size > maxFileBytes()) throw tooLarge(f.name, f.size);
-			const spectra = await ingestFile(actor, {
+			const input = {
 				bytes: await f.read(),
 				fileName: f.name,
 				instrumentId: instrument?.id ?? null,
 				context: options.context ?? 'loose',
 				contextId: options.contextId ?? null,
 				allowGaps: options.allowGaps
-			});
-			out.push({ file: f.name, ok: true, spectra });
+			};
+			return { file: f.name, ok: true, spectra: await ingest(actor, input, undefined, { instrument }) };
 		} catch (e) {
-			if (e instanceof IntakeError) out.push({ file: f.name, ok: false, status: e.status, error: e.toJSON() });
-			else if (e instanceof ServiceError && e.status !== 403 && e.status !== 401 && e.status !== 503) {
-				out.push({ file: f.name, ok: false, status: e.status, error: { code: e.code, message: `${f.name}: ${e.message}`, file: f.name } });
-			} else throw e;
+			if (e instanceof IntakeError) return { file: f.name, ok: false, status: e.status, error: e.toJSON() };
+			if (e instanceof ServiceError && e.status !== 403 && e.status !== 401 && e.status !== 503) {
+				return { file: f.name, ok: false, status: e.status, error: { code: e.code, message: `${f.name}: ${e.message}`, file: f.name } };
+			}
+			throw e;
 		}
-	}
+	};
+	// A few files in flight: one parses while another waits on the database. Each is still its own transaction.
+	let next = 0;
+	const worker = async () => {
+		while (next < files.length) {
+			const i = next++;
+			out[i] = await one(files[i]);
+		}
+	};
+	await Promise.all(Array.from({ length: Math.min(BATCH_CONCURRENCY, files.length) }, worker));
 	return out;
 }
 
