@@ -90,18 +90,19 @@ export function resampleOnto(
 	if (!axis || !values || axis.length !== values.length)
 		return { ok: false, code: 'bad-shape', reason: `axis has ${axis?.length ?? 0} points but values has ${values?.length ?? 0}` };
 	if (axis.length < 2) return { ok: false, code: 'bad-shape', reason: 'spectrum has fewer than 2 points' };
+	// common case: the instrument grid is the model grid, so resampling is a copy; checked in the same
+	// pass as the axis validation (screening time is dominated by such passes)
+	let same = unit === model.unit && axis.length === model.points;
+	const gridTol = same ? edgeTolerance(model) : 0;
+	const gridX = model.x;
+	const convertible = (unit === 'cm-1') === (model.unit === 'cm-1');
 	for (let i = 0; i < axis.length; i++) {
 		const a = axis[i];
-		if (!Number.isFinite(a) || (a <= 0 && (unit === 'cm-1') !== (model.unit === 'cm-1')))
+		if (!Number.isFinite(a) || (a <= 0 && !convertible))
 			return { ok: false, code: 'bad-axis', reason: `axis value at position ${i} is ${a}, which cannot be converted to ${model.unit}` };
+		if (same && (!(Math.abs(a - gridX[i]) <= gridTol) || !Number.isFinite(values[i]))) same = false;
 	}
-	// common case: the instrument grid is the model grid, so resampling is a copy
-	if (unit === model.unit && axis.length === model.points) {
-		const tol = edgeTolerance(model);
-		let same = true;
-		for (let i = 0; i < axis.length && same; i++) if (!(Math.abs(axis[i] - model.x[i]) <= tol) || !Number.isFinite(values[i])) same = false;
-		if (same) return { ok: true, values: Float64Array.from(values) };
-	}
+	if (same) return { ok: true, values: new Float64Array(values) };
 	const s = sortedInUnit(axis, values, unit, model.unit);
 	const n = s.x.length;
 	for (let i = 1; i < n; i++)

@@ -3,6 +3,7 @@ import { defaultAxis, resampleOnto, restrictAxis, type AxisUnit } from './axis';
 import { fitRowSteps, formatRecipe, maxGapOf, parseRecipe, rangeOf, rowSteps, scalingMode } from './preprocess/recipe';
 import { fitScaling, type ScalingMode } from './preprocess/scaling';
 import { gramRows, pca, residualMoments } from './pca';
+import { subtractComponents } from './projection';
 import { crossValidate, foldLayout, smallestFold, suggestComponents } from './crossval';
 import { t2LimitNew, t2LimitTraining } from './limits/hotelling';
 import { speBox, speJacksonMudholkar, speMoments, SPE_METHODS, type SpeMethod } from './limits/spe';
@@ -115,8 +116,8 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 		for (let a = 0; a < A; a++) {
 			const t = full.scores[i * Amax + a];
 			h += (t * t) / full.eigenvalues[a];
-			for (let j = 0; j < p; j++) e[j] -= t * full.loadings[a * p + j];
 		}
+		subtractComponents(e, full.loadings, full.scores, i * Amax, A, p);
 		let v = 0;
 		for (let j = 0; j < p; j++) v += e[j] * e[j];
 		fitted.h.push(h);

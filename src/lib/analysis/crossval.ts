@@ -1,7 +1,7 @@
 import { AnalysisError } from './errors';
 import { pca, type Mat } from './pca';
 import { fitScaling, type ScalingMode } from './preprocess/scaling';
-import { cumulativeLeverage, ekfAccumulate } from './ekf';
+import { cumulativeLeverage, ekfAccumulateWith, ekfMargins } from './ekf';
 
 export interface FoldLayout {
 	K: number;
@@ -123,8 +123,10 @@ export function crossValidate(
 		}
 		// fold models feed PRESS and CV distances only, which need far fewer digits than the stored model
 		const fit = pca({ data: Zf, rows: m, cols: p }, Amax, { gram: foldGram, tol: 1e-8 });
-		const lev = cumulativeLeverage(fit.loadings, Amax, p);
+		const margin = ekfMargins(cumulativeLeverage(fit.loadings, Amax, p), Amax, p);
 		const z = new Float64Array(p);
+		const e = new Float64Array(p);
+		const t = new Float64Array(Amax);
 		for (const i of test) {
 			if (mode === 'autoscale') {
 				const x = raw[i];
@@ -133,7 +135,7 @@ export function crossValidate(
 				const base = i * p;
 				for (let j = 0; j < p; j++) z[j] = Z.data[base + j] - shift[j];
 			}
-			ekfAccumulate(z, fit.loadings, fit.eigenvalues, Amax, p, lev, press, v.subarray(i * W, (i + 1) * W), h.subarray(i * W, (i + 1) * W));
+			ekfAccumulateWith(z, fit.loadings, fit.eigenvalues, Amax, p, margin, press, v.subarray(i * W, (i + 1) * W), h.subarray(i * W, (i + 1) * W), e, t);
 		}
 		onFold?.(f + 1, layout.K);
 	}

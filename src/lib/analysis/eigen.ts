@@ -1,5 +1,11 @@
 import { AnalysisError } from './errors';
 
+/** √(a² + b²) without the cost of Math.hypot; falls back to it only where squaring could over- or underflow. */
+function hypot2(a: number, b: number): number {
+	const r = Math.sqrt(a * a + b * b);
+	return r < 1e150 && r > 1e-150 ? r : Math.hypot(a, b);
+}
+
 /**
  * Eigen-decomposition of a symmetric tridiagonal matrix by the implicit QL method (tql2 of
  * EISPACK, as in JAMA). d: diagonal (n), e: sub-diagonal with e[i] = T[i+1][i], e[n−1] ignored.
@@ -36,7 +42,7 @@ export function tridiagonalEigen(
 				if (++iter > 60) throw new AnalysisError('no-convergence', 'tridiagonal QL did not converge');
 				let g = d[l];
 				let p = (d[l + 1] - g) / (2 * e[l]);
-				let r = Math.hypot(p, 1);
+				let r = hypot2(p, 1);
 				if (p < 0) r = -r;
 				d[l] = e[l] / (p + r);
 				d[l + 1] = e[l] * (p + r);
@@ -57,7 +63,7 @@ export function tridiagonalEigen(
 					s2 = s;
 					g = c * e[i];
 					h = c * p;
-					r = Math.hypot(p, e[i]);
+					r = hypot2(p, e[i]);
 					e[i + 1] = s * r;
 					s = e[i] / r;
 					c = p / r;
@@ -109,18 +115,87 @@ function lcg(seed: number): () => number {
 	};
 }
 
+/** out = A·x for symmetric row-major A, four rows per sweep so each x_j is loaded once for four products. */
 function symMatVec(A: Float64Array, m: number, x: Float64Array, out: Float64Array): void {
-	for (let i = 0; i < m; i++) {
-		const row = i * m;
+	let i = 0;
+	for (; i + 3 < m; i += 4) {
+		const r0 = i * m;
+		const r1 = r0 + m;
+		const r2 = r1 + m;
+		const r3 = r2 + m;
 		let s0 = 0;
 		let s1 = 0;
-		let j = 0;
-		for (; j + 1 < m; j += 2) {
-			s0 += A[row + j] * x[j];
-			s1 += A[row + j + 1] * x[j + 1];
+		let s2 = 0;
+		let s3 = 0;
+		for (let j = 0; j < m; j++) {
+			const xj = x[j];
+			s0 += A[r0 + j] * xj;
+			s1 += A[r1 + j] * xj;
+			s2 += A[r2 + j] * xj;
+			s3 += A[r3 + j] * xj;
 		}
-		if (j < m) s0 += A[row + j] * x[j];
-		out[i] = s0 + s1;
+		out[i] = s0;
+		out[i + 1] = s1;
+		out[i + 2] = s2;
+		out[i + 3] = s3;
+	}
+	for (; i < m; i++) {
+		const row = i * m;
+		let s0 = 0;
+		for (let j = 0; j < m; j++) s0 += A[row + j] * x[j];
+		out[i] = s0;
+	}
+}
+
+/**
+ * One classical Gram–Schmidt pass of w against rows 0..count−1 of Q: h = Qw, then w −= Qᵀh.
+ * Done twice by the caller (CGS2, "twice is enough"); four basis vectors per sweep, so w is read once per four.
+ */
+function orthogonalise(Q: Float64Array, m: number, count: number, w: Float64Array, h: Float64Array): void {
+	let i = 0;
+	for (; i + 3 < count; i += 4) {
+		const b0 = i * m;
+		const b1 = b0 + m;
+		const b2 = b1 + m;
+		const b3 = b2 + m;
+		let s0 = 0;
+		let s1 = 0;
+		let s2 = 0;
+		let s3 = 0;
+		for (let l = 0; l < m; l++) {
+			const wl = w[l];
+			s0 += Q[b0 + l] * wl;
+			s1 += Q[b1 + l] * wl;
+			s2 += Q[b2 + l] * wl;
+			s3 += Q[b3 + l] * wl;
+		}
+		h[i] = s0;
+		h[i + 1] = s1;
+		h[i + 2] = s2;
+		h[i + 3] = s3;
+	}
+	for (; i < count; i++) {
+		const b0 = i * m;
+		let s0 = 0;
+		for (let l = 0; l < m; l++) s0 += Q[b0 + l] * w[l];
+		h[i] = s0;
+	}
+	i = 0;
+	for (; i + 3 < count; i += 4) {
+		const b0 = i * m;
+		const b1 = b0 + m;
+		const b2 = b1 + m;
+		const b3 = b2 + m;
+		const h0 = h[i];
+		const h1 = h[i + 1];
+		const h2 = h[i + 2];
+		const h3 = h[i + 3];
+		for (let l = 0; l < m; l++) w[l] -= h0 * Q[b0 + l] + h1 * Q[b1 + l] + h2 * Q[b2 + l] + h3 * Q[b3 + l];
+	}
+	for (; i < count; i++) {
+		const b0 = i * m;
+		const h0 = h[i];
+		for (let l = 0; l < m; l++) w[l] -= h0 * Q[b0 + l];
 	}
 }
 
@@ -150,16 +225,11 @@ export function topEigen(A: Float64Array, m: number, k: number, options: { tol?:
 	const alpha: number[] = [];
 	const beta: number[] = [];
 	const w = new Float64Array(m);
-	let q = new Float64Array(m);
+	const h = new Float64Array(m);
+	const q = new Float64Array(m);
 	const fresh = (count: number): boolean => {
 		for (let i = 0; i < m; i++) q[i] = rand();
-		for (let pass = 0; pass < 2; pass++)
-			for (let i = 0; i < count; i++) {
-				const base = i * m;
-				let dd = 0;
-				for (let l = 0; l < m; l++) dd += Q[base + l] * q[l];
-				for (let l = 0; l < m; l++) q[l] -= dd * Q[base + l];
-			}
+		for (let pass = 0; pass < 2; pass++) orthogonalise(Q, m, count, q, h);
 		let nn = 0;
 		for (let l = 0; l < m; l++) nn += q[l] * q[l];
 		if (!(Math.sqrt(nn) > 1e-10)) return false;
@@ -175,20 +245,11 @@ export function topEigen(A: Float64Array, m: number, k: number, options: { tol?:
 		symMatVec(A, m, q, w);
 		let a = 0;
 		for (let l = 0; l < m; l++) a += q[l] * w[l];
-		for (let l = 0; l < m; l++) w[l] -= a * q[l];
-		if (j > 0) {
-			const b = beta[j - 1];
-			const base = (j - 1) * m;
-			for (let l = 0; l < m; l++) w[l] -= b * Q[base + l];
-		}
+		const bPrev = j > 0 ? beta[j - 1] : 0;
+		const prev = (j > 0 ? j - 1 : 0) * m;
+		for (let l = 0; l < m; l++) w[l] -= a * q[l] + bPrev * Q[prev + l];
 		// full re-orthogonalisation, twice ("twice is enough")
-		for (let pass = 0; pass < 2; pass++)
-			for (let i = 0; i <= j; i++) {
-				const base = i * m;
-				let dd = 0;
-				for (let l = 0; l < m; l++) dd += Q[base + l] * w[l];
-				for (let l = 0; l < m; l++) w[l] -= dd * Q[base + l];
-			}
+		for (let pass = 0; pass < 2; pass++) orthogonalise(Q, m, j + 1, w, h);
 		alpha.push(a);
 		const steps = j + 1;
 		if (steps === m) break;
@@ -202,8 +263,8 @@ export function topEigen(A: Float64Array, m: number, k: number, options: { tol?:
 			if (!fresh(steps)) break;
 		} else {
 			beta.push(b);
-			q = new Float64Array(m);
-			for (let l = 0; l < m; l++) q[l] = w[l] / b;
+			const inv = 1 / b;
+			for (let l = 0; l < m; l++) q[l] = w[l] * inv;
 		}
 		if (!brokeDown && steps >= nextCheck && steps >= k) {
 			const T = tridiagonalEigen(alpha, beta, { lastRowOnly: true });
@@ -214,7 +275,8 @@ export function topEigen(A: Float64Array, m: number, k: number, options: { tol?:
 				if (Math.abs(b * T.vectors[col]) > 0.01 * tol * top) ok = false;
 			}
 			if (ok) break;
-			nextCheck = steps + Math.max(4, Math.ceil(k / 2));
+			// a check costs O(steps²) rotations against O(m²) per step: check less often when m is small
+			nextCheck = steps + Math.max(4, Math.ceil(k / 2), Math.ceil((steps * steps) / (4 * m)));
 		}
 	}
 	const steps = alpha.length;
@@ -235,7 +297,7 @@ export function topEigen(A: Float64Array, m: number, k: number, options: { tol?:
 	// explicit check: the Lanczos bound is not trusted alone
 	const top = Math.abs(values[0]) || 1;
 	let residual = 0;
-	const Au = new Float64Array(m);
+	const Au = w;
 	for (let i = 0; i < k; i++) {
 		const u = vectors.subarray(i * m, (i + 1) * m);
 		symMatVec(A, m, u, Au);

@@ -1,4 +1,5 @@
 import { Matrix, solve } from 'ml-matrix';
+import { scoresInto } from './projection';
 
 /**
  * Element-wise k-fold PCA cross-validation (ekf; Bro, Kjeldahl, Smilde & Kiers 2008). For a left-out
@@ -17,30 +18,73 @@ export function ekfAccumulate(
 	spe: Float64Array,
 	h: Float64Array
 ): void {
-	const e = Float64Array.from(z);
+	const margin = ekfMargins(leverage, Amax, p);
+	ekfAccumulateWith(z, loadings, lambda, Amax, p, margin, press, spe, h, new Float64Array(p), new Float64Array(Amax));
+}
+
+/**
+ * 1/(1 − d_j(A)) for every A (Amax×p), computed once per fold model so the per-object loop
+ * multiplies instead of dividing; `unpredictable[a]` marks an A where some 1 − d_j ≤ 10⁻¹⁰.
+ */
+export interface EkfMargins {
+	inverse: Float64Array;
+	unpredictable: Uint8Array;
+}
+
+export function ekfMargins(leverage: Float64Array, Amax: number, p: number): EkfMargins {
+	const inverse = new Float64Array(Amax * p);
+	const unpredictable = new Uint8Array(Amax);
+	for (let a = 0; a < Amax; a++)
+		for (let j = 0; j < p; j++) {
+			const q = 1 - leverage[a * p + j];
+			// a variable the model reproduces exactly cannot be predicted from the others
+			if (q > 1e-10) inverse[a * p + j] = 1 / q;
+			else unpredictable[a] = 1;
+		}
+	return { inverse, unpredictable };
+}
+
+/** ekfAccumulate with precomputed margins and caller-owned scratch (e: p, t: Amax), for the fold loop. */
+export function ekfAccumulateWith(
+	z: Float64Array,
+	loadings: Float64Array,
+	lambda: Float64Array,
+	Amax: number,
+	p: number,
+	margin: EkfMargins,
+	press: Float64Array,
+	spe: Float64Array,
+	h: Float64Array,
+	e: Float64Array,
+	t: Float64Array
+): void {
 	let ss = 0;
-	for (let j = 0; j < p; j++) ss += e[j] * e[j];
+	for (let j = 0; j < p; j++) {
+		const v = z[j];
+		e[j] = v;
+		ss += v * v;
+	}
 	press[0] += ss;
 	spe[0] = ss;
 	h[0] = 0;
+	// P orthonormal, so p_a·z equals p_a·e after deflating the earlier components: all scores in one sweep
+	scoresInto(loadings, z, Amax, p, t);
+	const inv = margin.inverse;
 	let hh = 0;
 	for (let a = 0; a < Amax; a++) {
 		const base = a * p;
-		let t = 0;
-		for (let j = 0; j < p; j++) t += loadings[base + j] * z[j];
-		hh += (t * t) / lambda[a];
+		const ta = t[a];
+		hh += (ta * ta) / lambda[a];
 		let s = 0;
 		let pr = 0;
-		const lev = leverage.subarray(a * p, (a + 1) * p);
 		for (let j = 0; j < p; j++) {
-			const ej = e[j] - t * loadings[base + j];
+			const ej = e[j] - ta * loadings[base + j];
 			e[j] = ej;
 			s += ej * ej;
-			const q = 1 - lev[j];
-			// a variable the model reproduces exactly cannot be predicted from the others
-			pr += q > 1e-10 ? (ej / q) ** 2 : Infinity;
+			const r = ej * inv[base + j];
+			pr += r * r;
 		}
-		press[a + 1] += pr;
+		press[a + 1] += margin.unpredictable[a] ? Infinity : pr;
 		spe[a + 1] = s;
 		h[a + 1] = hh;
 	}

@@ -158,3 +158,16 @@ export function planCount(kind: PlanKind, N: number): { count: number; pooled: n
 	checkN(N);
 	return { count: N, pooled: null };
 }
+
+/** Why a reduced plan is refused, or null when allowed: the material's policy allows it, the supplier is qualified, and a justification is written. */
+export function reducedPlanRefusal(
+	material: { code: string; samplingPolicy: string },
+	supplier: { code: string; status: string },
+	justification: string | undefined | null
+): { message: string; field: 'plan' | 'justification' } | null {
+	if (material.samplingPolicy !== 'reduced-allowed')
+		return { message: `A reduced plan is not allowed for ${material.code}: its sampling policy is every container`, field: 'plan' };
+	if (supplier.status !== 'qualified') return { message: `A reduced plan needs a qualified supplier; ${supplier.code} is ${supplier.status}`, field: 'plan' };
+	if (!justification || justification.trim().length < 10) return { message: 'A reduced plan needs a recorded justification (at least 10 characters)', field: 'justification' };
+	return null;
+}
