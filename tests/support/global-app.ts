@@ -8,8 +8,9 @@ let app: ChildProcess | null = null;
 
 export default async function setup(project: TestProject) {
 	const cluster = await startCluster();
-	const url = await ensureDatabase(cluster, 'lotgate_e2e', { fresh: true });
 	const port = Number(process.env.LOTGATE_E2E_PORT ?? 3107);
+	// One database per port, so two runs side by side never drop each other's data.
+	const url = await ensureDatabase(cluster, `lotgate_e2e_${port}`, { fresh: true });
 	const env = {
 		...process.env,
 		DATABASE_URL: url,

@@ -69,8 +69,8 @@ describe('reproducible random choice', () => {
 	});
 });
 
-describe('docs/methods-sampling.md worked example is executed', () => {
-	const doc = readFileSync(join(__dirname, '../../docs/methods-sampling.md'), 'utf8');
+describe('docs/methods.md §15 worked example is executed', () => {
+	const doc = readFileSync(join(__dirname, '../../docs/methods.md'), 'utf8');
 	const block = /```sampling-example\n([\s\S]*?)```/.exec(doc);
 	const cases = (block?.[1] ?? '')
 		.split('\n')

@@ -1,4 +1,4 @@
-// Sampling plans for incoming containers (pure). Formulas: WHO TRS 929 (2005), Annex 4; see docs/methods-sampling.md.
+// Sampling plans for incoming containers (pure). Formulas: WHO TRS 929 (2005), Annex 4; see docs/methods.md §15.
 //   n-plan  n = ⌈1 + √N⌉     uniform material from a recognised, qualified source: identity-test n containers
 //   p-plan  p = ⌈0.4·√N⌉     uniform material: identity-test EVERY container, then pool into p samples for further tests
 //   r-plan  r = ⌈1.5·√N⌉     non-uniform or poorly known material: identity-test r containers
