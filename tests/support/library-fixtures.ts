@@ -1,17 +1,10 @@
 // Synthetic labelled NIR-like spectra for method-development tests: Gaussian bands per class, with noise, offset and scatter.
 import { createHash } from 'node:crypto';
 import { QueryTypes } from 'sequelize';
+import { mulberry32 } from '../../src/lib/analysis/sampling';
 
-export function rng(seed: number) {
-	let a = seed >>> 0;
-	return () => {
-		a = (a + 0x6d2b79f5) >>> 0;
-		let t = a;
-		t = Math.imul(t ^ (t >>> 15), t | 1);
-		t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-		return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-	};
-}
+// The project's seeded generator, so fixtures are the same bytes on every machine.
+export const rng = (seed: number) => mulberry32(seed);
 
 const BANDS: Record<string, [number, number, number][]> = {
 	genuine: [[1450, 40, 0.8], [1930, 50, 1.0], [2100, 60, 0.6], [2300, 40, 0.4]],

@@ -1,16 +1,8 @@
 // Seeded pseudo-random numbers, so the demo data are the same bytes on every machine.
 
-/** mulberry32: small, fast, and good enough for synthetic noise (not for anything secret). */
-export function mulberry32(seed: number): () => number {
-	let a = seed >>> 0;
-	return () => {
-		a = (a + 0x6d2b79f5) >>> 0;
-		let t = a;
-		t = Math.imul(t ^ (t >>> 15), t | 1);
-		t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-		return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-	};
-}
+// One generator for the whole project: the container sampling's mulberry32.
+import { mulberry32 } from '../analysis/sampling';
+export { mulberry32 };
 
 export interface Rng {
 	uniform(): number;
