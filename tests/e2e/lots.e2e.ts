@@ -138,6 +138,34 @@ describe('receiving and scanning', () => {
 		await context.close();
 	});
 
+	it('uploads two container scans at once with the batch tool; both verdicts appear in the container table', async () => {
+		const created = await fetch(`${baseUrl()}/api/v1/lots`, {
+			method: 'POST',
+			headers: { cookie: techCookie, 'content-type': 'application/json' },
+			body: JSON.stringify({ material: 'LAC-200', supplier: 'NORDVIK', supplierLot: `BATCH-${Date.now()}`, containers: 2, receivedAt: new Date().toISOString().slice(0, 10) })
+		});
+		expect(created.status).toBe(201);
+		const lot = await created.json();
+		// The demo file names carry the container (lac-good-C01.jdx), which the uploader maps by its default pattern.
+		const files = spec('lac-good').files.filter((f) => f.container === 1 || f.container === 2);
+		expect(files.map((f) => f.name).sort()).toEqual(['lac-good-C01.jdx', 'lac-good-C02.jdx']);
+		const context = await newContext(browser);
+		const page = await context.newPage();
+		await signIn(page, 'technician@demo.test');
+		await page.goto(`/lots/${lot.internalLot}`);
+		const batch = page.getByTestId('scan-batch');
+		await batch.getByTestId('upload-input').setInputFiles(files.map((f) => ({ name: f.name, mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(f.bytes) })));
+		for (const f of files) await batch.locator(`[data-testid=upload-row][data-file="${f.name}"][data-status="ready"]`).waitFor();
+		await expect(batch.getByLabel('Container for lac-good-C02.jdx').inputValue()).resolves.toBe('2');
+		await batch.getByTestId('upload-start').click();
+		for (const f of files) await batch.locator(`[data-testid=upload-row][data-file="${f.name}"][data-status="stored"]`).waitFor();
+		for (const n of [1, 2]) await page.locator(`tr[data-container="${n}"][data-verdict="genuine"]`).waitFor();
+		await expect(batch.locator('[data-file="lac-good-C01.jdx"]').getByTestId('upload-message').textContent()).resolves.toContain('container C01: genuine');
+		const stored = await lotJson(lot.internalLot);
+		expect(stored.scans.map((s: { container: number; fileName: string }) => `${s.container}:${s.fileName}`).sort()).toEqual(['1:lac-good-C01.jdx', '2:lac-good-C02.jdx']);
+		await context.close();
+	});
+
 	it('POST /api/v1/lots answers 201 with containers 1..N; GET lists with filters', async () => {
 		const res = await fetch(`${baseUrl()}/api/v1/lots`, {
 			method: 'POST',
