@@ -1,0 +1,43 @@
+// The build form's schema (browser and server): strings where the form sends strings; the service re-validates everything.
+import { z } from 'zod';
+import { parseRecipe } from '$lib/analysis/preprocess/recipe';
+
+const componentsField = z
+	.string()
+	.trim()
+	.toLowerCase()
+	.default('auto')
+	.refine((v) => v === 'auto' || (/^\d+$/.test(v) && Number(v) >= 1 && Number(v) <= 30), 'Use auto, or a whole number from 1 to 30');
+const probability = (what: string) => z.coerce.number({ invalid_type_error: `${what} must be a number` }).gt(0, `${what} must be above 0`).lt(0.5, `${what} must be below 0.5`);
+
+export const buildFormSchema = z.object({
+	recipe: z
+		.string()
+		.trim()
+		.default('snv,center')
+		.superRefine((text, ctx) => {
+			try {
+				parseRecipe(text);
+			} catch (e) {
+				ctx.addIssue({ code: 'custom', message: (e as Error).message });
+			}
+		}),
+	familyComponents: componentsField,
+	components: componentsField,
+	alpha: probability('α').default(0.05),
+	familyAlpha: probability('Family α').default(0.01),
+	gamma: probability('γ').default(0.01),
+	limits: z.enum(['cv', 'training']).default('cv'),
+	folds: z.coerce.number().int('Folds must be a whole number').min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
+	groupBy: z.enum(['supplier_lot', 'supplier', 'instrument', 'none']).default('supplier_lot'),
+	speLimit: z.enum(['moments', 'jackson-mudholkar', 'box']).default('moments'),
+	note: z.string().trim().max(2000).default('')
+});
+export type BuildForm = z.infer<typeof buildFormSchema>;
+
+export const toParams = (f: BuildForm) => ({
+	...f,
+	components: f.components === 'auto' ? ('auto' as const) : Number(f.components),
+	familyComponents: f.familyComponents === 'auto' ? ('auto' as const) : Number(f.familyComponents),
+	note: f.note || undefined
+});
