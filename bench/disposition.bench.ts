@@ -2,19 +2,13 @@
 // 50-container lot (2,000-point spectra, some containers failing): the first QA signature; the second signature, which
 // also renders and stores the certificate and writes the outbox; regenerating the certificate; and sending the mail
 // with the PDF through the local SMTP fake. `npx tsx bench/disposition.bench.ts`.
-import { ensureDatabase, startCluster } from '../scripts/lib/postgres';
+import { freshBenchDatabase, reportMs as line } from './support';
 
 const CONTAINERS = 50;
 const POINTS = 2000;
-const line = (label: string, ms: number, target: number) => console.log(`${label.padEnd(64)} ${ms.toFixed(0).padStart(6)} ms   target ≤ ${target} ms   ${ms <= target ? 'OK' : 'OVER'}`);
 
 async function main() {
-	const cluster = await startCluster();
-	const url = await ensureDatabase(cluster, 'lotgate_bench_disposition', { fresh: true });
-	process.env.DATABASE_URL = url;
-	const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
-	const { migrate } = await import('../src/lib/server/db/migrate');
-	await migrate(sequelize(), { quiet: true });
+	const { url, sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench_disposition');
 	const { approvedMaterial, jcamp } = await import('../tests/support/lot-fixtures');
 	const lots = await import('../src/lib/server/services/lots');
 	const scans = await import('../src/lib/server/services/scans');

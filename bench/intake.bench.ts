@@ -5,7 +5,8 @@ import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { resolve } from 'node:path';
-import { ensureDatabase, projectRoot, startCluster } from '../scripts/lib/postgres';
+import { projectRoot } from '../scripts/lib/postgres';
+import { freshBenchDatabase } from './support';
 import { jcampFile, largeJcamp } from '../tests/support/intake-files';
 
 const FILES = 200;
@@ -48,14 +49,9 @@ function post(base: string, token: string, files: { name: string; bytes: Uint8Ar
 	return fetch(`${base}/api/v1/spectra`, { method: 'POST', body: form, headers: { authorization: `Bearer ${token}` } });
 }
 
-const cluster = await startCluster();
-const url = await ensureDatabase(cluster, 'lotgate_bench', { fresh: true });
-process.env.DATABASE_URL = url;
-const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
-const { migrate } = await import('../src/lib/server/db/migrate');
+const { url, sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench');
 const users = await import('../src/lib/server/services/users');
 const instruments = await import('../src/lib/server/services/instruments');
-await migrate(sequelize(), { quiet: true });
 const bootstrap = { id: null, label: 'bench', roles: ['admin' as const] };
 const admin = await users.create(bootstrap, { email: 'bench-admin@bench.test', name: 'Bench admin', password: 'bench-password-1', roles: ['admin'] });
 const adminActor = { id: admin.id, label: admin.name, roles: ['admin' as const] };

@@ -8,22 +8,17 @@ import { spawn, spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { resolve } from 'node:path';
 import autocannon from 'autocannon';
-import { ensureDatabase, projectRoot, startCluster } from '../scripts/lib/postgres';
+import { projectRoot } from '../scripts/lib/postgres';
+import { freshBenchDatabase, reportMs as line } from './support';
 
 const CONTAINERS = 50;
 const POINTS = 2000;
 const HTTP_UPLOADS = 400;
 const HTTP_CONNECTIONS = 20;
 
-const line = (label: string, ms: number, target: number) => console.log(`${label.padEnd(64)} ${ms.toFixed(0).padStart(6)} ms   target ≤ ${target} ms   ${ms <= target ? 'OK' : 'OVER'}`);
 
 async function main() {
-	const cluster = await startCluster();
-	const url = await ensureDatabase(cluster, 'lotgate_bench_lots', { fresh: true });
-	process.env.DATABASE_URL = url;
-	const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
-	const { migrate } = await import('../src/lib/server/db/migrate');
-	await migrate(sequelize(), { quiet: true });
+	const { url, sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench_lots');
 	const { approvedMaterial, jcamp } = await import('../tests/support/lot-fixtures');
 	const lots = await import('../src/lib/server/services/lots');
 	const scans = await import('../src/lib/server/services/scans');

@@ -1,17 +1,13 @@
 // Model-build benchmark (issue 5, Performance): a build job for 500 spectra × 2,000 points, 4 classes, auto components,
 // CV limits, database I/O included (load spectra, build, screen the library for evidence, store artefact and figures);
 // and the version page's server data (the services its load calls). Prints each figure next to its target.
-import { ensureDatabase, startCluster } from '../scripts/lib/postgres';
+import { freshBenchDatabase, reportMs } from './support';
 
 const N = 500;
 const P = 2000;
 
 async function main() {
-	const cluster = await startCluster();
-	process.env.DATABASE_URL = await ensureDatabase(cluster, 'lotgate_bench', { fresh: true });
-	const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
-	const { migrate } = await import('../src/lib/server/db/migrate');
-	await migrate(sequelize(), { quiet: true });
+	const { sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench_models');
 	const materials = await import('../src/lib/server/services/materials');
 	const versions = await import('../src/lib/server/services/model-versions');
 	const users = await import('../src/lib/server/services/users');
@@ -45,7 +41,7 @@ async function main() {
 	}
 	samples.sort((a, b) => a - b);
 	const median = samples[Math.floor(samples.length / 2)];
-	const line = (label: string, ms: number, target: number) => console.log(`${label.padEnd(58)} ${ms.toFixed(0).padStart(6)} ms   target ≤ ${target} ms   ${ms <= target ? 'OK' : 'OVER'}`);
+	const line = (label: string, ms: number, target: number) => reportMs(label, ms, target, 58);
 	line(`build job (${N}×${P}, ${classes.length} classes, auto A, CV limits, DB I/O)`, buildMs, 5000);
 	line("version page server load (median of 7)", median, 300);
 	console.log(`  models: ${v.figures!.models.map((x) => `${x.name} A=${x.components}`).join(', ')}; engine-side build ${v.figures!.buildMs} ms`);

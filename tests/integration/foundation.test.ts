@@ -20,8 +20,9 @@ describe('audit trail', () => {
 	});
 
 	it('names the first tampered row, and verifies again once it is restored', async () => {
-		const event = await transaction((tx) => audit.record(tx, rootActor, { action: 'test.tamper-target', entity: 'test', reason: 'original' }));
-		const id = Number(event.id);
+		const action = `test.tamper-target-${Date.now()}`;
+		await transaction((tx) => audit.record(tx, rootActor, { action, entity: 'test', reason: 'original' }));
+		const [{ id }] = await sequelize().query<{ id: number }>('SELECT id::int AS id FROM audit_events WHERE action = :action', { replacements: { action }, type: QueryTypes.SELECT });
 		// Tampering needs the trigger off: only a database owner can do this, and the chain still exposes it.
 		await sequelize().query('ALTER TABLE audit_events DISABLE TRIGGER audit_events_no_update');
 		try {
@@ -33,6 +34,21 @@ describe('audit trail', () => {
 		} finally {
 			await sequelize().query('ALTER TABLE audit_events ENABLE TRIGGER audit_events_no_update');
 		}
+		expect((await audit.verifyChain()).ok).toBe(true);
+	});
+
+	it('appends a transaction\'s events at its end, in call order, chained', async () => {
+		const tag = `order-${Date.now()}`;
+		await transaction(async (tx) => {
+			await audit.record(tx, rootActor, { action: `${tag}.first`, entity: 'test' });
+			await audit.record(tx, rootActor, { action: `${tag}.second`, entity: 'test' });
+		});
+		const rows = await sequelize().query<{ action: string; prev_hash: string; hash: string }>(
+			'SELECT action, prev_hash, hash FROM audit_events WHERE action LIKE :tag ORDER BY id',
+			{ replacements: { tag: `${tag}.%` }, type: QueryTypes.SELECT }
+		);
+		expect(rows.map((r) => r.action)).toEqual([`${tag}.first`, `${tag}.second`]);
+		expect(rows[1].prev_hash).toBe(rows[0].hash);
 		expect((await audit.verifyChain()).ok).toBe(true);
 	});
 

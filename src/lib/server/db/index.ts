@@ -33,9 +33,25 @@ export function models(): Models {
 	return connect().models;
 }
 
+const beforeCommit = new WeakMap<Transaction, (() => Promise<void>)[]>();
+
 /** One unit of work: every service mutation and its audit event commit or roll back together. */
 export function transaction<T>(work: (tx: Transaction) => Promise<T>): Promise<T> {
-	return sequelize().transaction(work);
+	return sequelize().transaction(async (tx) => {
+		beforeCommit.set(tx, []);
+		const result = await work(tx);
+		// Steps registered by the work run last, still inside the transaction (the audit chain appends here).
+		for (const step of beforeCommit.get(tx)!) await step();
+		return result;
+	});
+}
+
+/** Registers a step to run at the end of a transaction opened by `transaction()`; false for any other transaction. */
+export function runBeforeCommit(tx: Transaction, step: () => Promise<void>): boolean {
+	const steps = beforeCommit.get(tx);
+	if (!steps) return false;
+	steps.push(step);
+	return true;
 }
 
 export async function closeDatabase() {

@@ -1,7 +1,7 @@
 import canonicalize from 'canonicalize';
 import { createHash } from 'node:crypto';
 import { Op, QueryTypes, type Transaction, type WhereOptions } from 'sequelize';
-import { models, sequelize } from '../db';
+import { models, runBeforeCommit, sequelize } from '../db';
 import type { Actor } from './actor';
 
 export const GENESIS_HASH = '0'.repeat(64);
@@ -42,25 +42,50 @@ function plain(value: unknown): unknown {
 	return value === undefined ? null : JSON.parse(JSON.stringify(value));
 }
 
-/** Appends one audit event inside the caller's transaction: the change and its record commit together. */
-export async function record(tx: Transaction, actor: Actor, input: AuditInput) {
+const queued = new WeakMap<Transaction, { actor: Actor; input: AuditInput }[]>();
+
+/**
+ * Records one audit event in the caller's transaction: the change and its record commit together.
+ * In a transaction from `transaction()` the events are appended at its end, so the chain's lock is held only
+ * for the append and the commit, not for the work before it (concurrent uploads would otherwise queue on it).
+ */
+export async function record(tx: Transaction, actor: Actor, input: AuditInput): Promise<void> {
+	const pending = queued.get(tx);
+	if (pending) {
+		pending.push({ actor, input: { ...input, before: plain(input.before), after: plain(input.after) } });
+		return;
+	}
+	const events = [{ actor, input: { ...input, before: plain(input.before), after: plain(input.after) } }];
+	if (runBeforeCommit(tx, () => append(tx, events))) {
+		queued.set(tx, events);
+		return;
+	}
+	await append(tx, events);
+}
+
+/** Takes the chain lock, then writes the events in order, each hashed onto the one before. */
+async function append(tx: Transaction, events: { actor: Actor; input: AuditInput }[]) {
 	const { AuditEvent } = models();
 	await sequelize().query('SELECT pg_advisory_xact_lock(:key)', { replacements: { key: CHAIN_LOCK }, transaction: tx });
 	const last = await AuditEvent.findOne({ order: [['id', 'DESC']], attributes: ['hash'], transaction: tx });
-	const prevHash = last?.hash ?? GENESIS_HASH;
-	const fields: HashedFields = {
-		at: new Date().toISOString(),
-		actorId: actor.id,
-		actorLabel: actor.label,
-		action: input.action,
-		entity: input.entity,
-		entityId: input.entityId == null ? null : String(input.entityId),
-		before: plain(input.before),
-		after: plain(input.after),
-		reason: input.reason ?? null,
-		requestId: actor.requestId ?? null
-	};
-	return AuditEvent.create({ ...fields, at: new Date(fields.at), prevHash, hash: chainHash(prevHash, fields) }, { transaction: tx });
+	let prevHash = last?.hash ?? GENESIS_HASH;
+	for (const { actor, input } of events) {
+		const fields: HashedFields = {
+			at: new Date().toISOString(),
+			actorId: actor.id,
+			actorLabel: actor.label,
+			action: input.action,
+			entity: input.entity,
+			entityId: input.entityId == null ? null : String(input.entityId),
+			before: input.before ?? null,
+			after: input.after ?? null,
+			reason: input.reason ?? null,
+			requestId: actor.requestId ?? null
+		};
+		const hash = chainHash(prevHash, fields);
+		await AuditEvent.create({ ...fields, at: new Date(fields.at), prevHash, hash }, { transaction: tx });
+		prevHash = hash;
+	}
 }
 
 export interface ChainReport {
