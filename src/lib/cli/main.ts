@@ -279,6 +279,11 @@ function table(results: (ScreenResult & { file: string })[], classes: string[], 
 /** Runs the command line; returns the exit code (0 ok, 1 data or file error, 2 usage error). */
 export async function main(argv: string[], io: CliIo = defaultIo): Promise<number> {
 	const [command, ...rest] = argv;
+	// `lotgate build --help` asks for the usage, not for a build.
+	if (rest.includes('--help') || rest.includes('-h')) {
+		io.stdout(USAGE);
+		return 0;
+	}
 	try {
 		if (command === 'build') return runBuild(rest, io);
 		if (command === 'screen') return await runScreen(rest, io);
