@@ -4,6 +4,7 @@ import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
 import { requireUser } from '$lib/server/guard';
 import { ServiceError } from '$lib/server/services/errors';
+import { rowAction } from '$lib/server/forms';
 import * as instruments from '$lib/server/services/instruments';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -29,18 +30,6 @@ export const load = (async (event) => {
 		createForm: await superValidate(zod(createSchema), { id: 'create-instrument' })
 	};
 }) satisfies PageServerLoad;
-
-async function rowAction<T extends z.ZodTypeAny>(request: Request, schema: T, run: (data: z.infer<T>) => Promise<unknown>) {
-	const form = await superValidate(request, zod(schema));
-	if (!form.valid) return fail(400, { rowForm: form });
-	try {
-		await run(form.data);
-	} catch (error) {
-		if (error instanceof ServiceError) return message(form, error.message, { status: error.status === 403 ? 403 : 400 });
-		throw error;
-	}
-	return { rowForm: form };
-}
 
 export const actions = {
 	create: async (event) => {

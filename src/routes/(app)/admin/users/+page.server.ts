@@ -5,6 +5,7 @@ import { z } from 'zod';
 import { ROLES, type Role } from '$lib/server/db/models';
 import { requireUser } from '$lib/server/guard';
 import { ServiceError } from '$lib/server/services/errors';
+import { rowAction } from '$lib/server/forms';
 import * as users from '$lib/server/services/users';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -21,19 +22,6 @@ export const load = (async (event) => {
 		createForm: await superValidate(zod(users.newUserSchema), { id: 'create-user' })
 	};
 }) satisfies PageServerLoad;
-
-/** Runs a row action; a refusal comes back beside that row. */
-async function rowAction<T extends z.ZodTypeAny>(request: Request, schema: T, run: (data: z.infer<T>) => Promise<unknown>) {
-	const form = await superValidate(request, zod(schema));
-	if (!form.valid) return fail(400, { rowForm: form });
-	try {
-		await run(form.data);
-	} catch (error) {
-		if (error instanceof ServiceError) return message(form, error.message, { status: error.status === 403 ? 403 : 400 });
-		throw error;
-	}
-	return message(form, 'Saved');
-}
 
 export const actions = {
 	create: async (event) => {
@@ -54,14 +42,14 @@ export const actions = {
 	},
 	roles: async (event) => {
 		const actor = requireUser(event, 'admin');
-		return rowAction(event.request, rolesSchema, (d) => users.setRoles(actor, d.userId, d.roles, d.reason));
+		return rowAction(event.request, rolesSchema, (d) => users.setRoles(actor, d.userId, d.roles, d.reason), 'Saved');
 	},
 	password: async (event) => {
 		const actor = requireUser(event, 'admin');
-		return rowAction(event.request, passwordSchema, (d) => users.resetPassword(actor, d.userId, d.password, d.reason));
+		return rowAction(event.request, passwordSchema, (d) => users.resetPassword(actor, d.userId, d.password, d.reason), 'Saved');
 	},
 	active: async (event) => {
 		const actor = requireUser(event, 'admin');
-		return rowAction(event.request, activeSchema, (d) => users.setActive(actor, d.userId, d.active === 'true', d.reason));
+		return rowAction(event.request, activeSchema, (d) => users.setActive(actor, d.userId, d.active === 'true', d.reason), 'Saved');
 	}
 } satisfies Actions;
