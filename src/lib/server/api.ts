@@ -1,6 +1,8 @@
 import { json, type RequestEvent } from '@sveltejs/kit';
 import { ZodError } from 'zod';
 import type { Role } from '$lib/permissions';
+import { markDatabaseDown } from './db';
+import { BodyTooLarge, isConnectionError } from './request-limits';
 import { hasRole, type Actor } from './services/actor';
 import { ServiceError } from './services/errors';
 
@@ -15,7 +17,19 @@ export function apiError(status: number, code: string, message: string, field?: 
 }
 
 export function errorResponse(error: unknown) {
-	if (error instanceof ServiceError) return apiError(error.status, error.code, error.message, error.field);
+	if (error instanceof ServiceError) {
+		const response = apiError(error.status, error.code, error.message, error.field);
+		const retryAfter = (error as { retryAfter?: number }).retryAfter;
+		if (error.status === 429 && retryAfter) response.headers.set('retry-after', String(Math.ceil(retryAfter)));
+		return response;
+	}
+	if (error instanceof BodyTooLarge || (error instanceof Error && error.cause instanceof BodyTooLarge)) {
+		return apiError(413, 'too-large', 'The request body is larger than this address accepts');
+	}
+	if (isConnectionError(error)) {
+		markDatabaseDown();
+		return apiError(503, 'database-unavailable', 'The Lotgate database is not reachable right now. Nothing was changed. Try again in a minute, or tell your admin.');
+	}
 	if (error instanceof ZodError) {
 		const issue = error.issues[0];
 		const field = issue?.path.join('.') || undefined;

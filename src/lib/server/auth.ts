@@ -2,19 +2,40 @@ import { SvelteKitAuth, CredentialsSignin } from '@auth/sveltekit';
 import Credentials from '@auth/sveltekit/providers/credentials';
 import { AuthenticationError, authenticate } from './services/users';
 
+/** Idle limit: the cookie's expiry moves on with every request. */
 export const SESSION_MAX_AGE_SECONDS = 8 * 60 * 60;
+/** Absolute limit from sign-in, whatever the activity (checked in hooks.server.ts). */
+export const SESSION_ABSOLUTE_SECONDS = 12 * 60 * 60;
+/** Set by the /login action from the socket address; refused from outside (Auth.js's own routes are closed to clients). */
+export const CLIENT_IP_HEADER = 'x-lotgate-client-ip';
+
+/** What the session cookie carries besides Auth.js's own claims. */
+export interface LotgateSession {
+	uid?: number;
+	/** users.session_version when the cookie was issued: a higher version in the database ends the session */
+	sv?: number;
+	/** sign-in time, seconds since the epoch, for the absolute limit */
+	authAt?: number;
+}
+
+/** Seconds to wait after a refused sign-in, by request id, for the /login action's Retry-After (Auth.js keeps only the code). */
+export const signInRetryAfter = new Map<string, number>();
 
 class LotgateSignInError extends CredentialsSignin {
-	constructor(code: string) {
+	retryAfter?: number;
+	constructor(code: string, retryAfter?: number) {
 		super();
 		this.code = code;
+		this.retryAfter = retryAfter;
 	}
 }
 
-// Sessions are signed, encrypted JWT cookies (httpOnly, sameSite=lax, secure on https), so app servers hold no state.
-export const { handle: authHandle, signIn, signOut } = SvelteKitAuth({
+// Sessions are signed, encrypted JWT cookies (httpOnly, sameSite=lax, Secure whenever the request came over https),
+// revocable through the per-user session version that hooks.server.ts compares on every request.
+export const { handle: authHandle, signIn, signOut } = SvelteKitAuth(async (event) => ({
 	trustHost: true,
 	secret: process.env.AUTH_SECRET,
+	useSecureCookies: event.url.protocol === 'https:',
 	session: { strategy: 'jwt', maxAge: SESSION_MAX_AGE_SECONDS },
 	pages: { signIn: '/login', error: '/login' },
 	providers: [
@@ -23,10 +44,20 @@ export const { handle: authHandle, signIn, signOut } = SvelteKitAuth({
 			credentials: { email: {}, password: {} },
 			async authorize(credentials, request) {
 				try {
-					const user = await authenticate(String(credentials?.email ?? ''), String(credentials?.password ?? ''), 'sign-in', request.headers.get('x-request-id') ?? undefined);
-					return { id: String(user.id), email: user.email, name: user.name };
+					const user = await authenticate(
+						String(credentials?.email ?? ''),
+						String(credentials?.password ?? ''),
+						'sign-in',
+						request.headers.get('x-request-id') ?? undefined,
+						request.headers.get(CLIENT_IP_HEADER) ?? undefined
+					);
+					return { id: String(user.id), email: user.email, name: user.name, sv: user.sessionVersion } as { id: string; email: string; name: string };
 				} catch (error) {
-					if (error instanceof AuthenticationError) throw new LotgateSignInError(error.reason);
+					if (error instanceof AuthenticationError) {
+						const requestId = request.headers.get('x-request-id');
+						if (requestId && error.retryAfter) signInRetryAfter.set(requestId, error.retryAfter);
+						throw new LotgateSignInError(error.reason, error.retryAfter);
+					}
 					throw error;
 				}
 			}
@@ -34,12 +65,19 @@ export const { handle: authHandle, signIn, signOut } = SvelteKitAuth({
 	],
 	callbacks: {
 		jwt({ token, user }) {
-			if (user?.id) token.uid = Number(user.id);
+			if (user?.id) {
+				token.uid = Number(user.id);
+				token.sv = Number((user as { sv?: number }).sv ?? 0);
+				token.authAt = Math.floor(Date.now() / 1000);
+			}
 			return token;
 		},
 		session({ session, token }) {
-			(session as unknown as { uid: number }).uid = token.uid as number;
+			const out = session as unknown as LotgateSession;
+			out.uid = token.uid as number;
+			out.sv = token.sv as number;
+			out.authAt = token.authAt as number;
 			return session;
 		}
 	}
-});
+}));

@@ -3,27 +3,42 @@ import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
 import { CredentialsSignin } from '@auth/sveltekit';
-import { signIn } from '$lib/server/auth';
+import { CLIENT_IP_HEADER, signIn, signInRetryAfter } from '$lib/server/auth';
+import { LOGIN_PER_ACCOUNT } from '$lib/server/rate-limit';
+import { LOCKED_MESSAGE } from '$lib/server/services/users';
 import type { Actions, PageServerLoad } from './$types';
 
 const signInSchema = z.object({
-	email: z.string().trim().email('Enter your e-mail address'),
-	password: z.string().min(1, 'Enter your password'),
-	redirectTo: z.string().default('/')
+	email: z.string().trim().max(320).email('Enter your e-mail address'),
+	password: z.string().min(1, 'Enter your password').max(1000),
+	redirectTo: z.string().max(2000).default('/')
 });
 
+// The same texts whether or not the e-mail belongs to an account.
 const FAILURE_TEXT: Record<string, string> = {
 	'wrong-credentials': 'The e-mail or password is not correct.',
-	locked: 'Too many failed attempts: this account is locked for 15 minutes. Ask an admin, or try again later.',
+	locked: LOCKED_MESSAGE,
 	inactive: 'This account has been deactivated. Ask an admin.'
 };
+const FAILURE_STATUS: Record<string, number> = { 'wrong-credentials': 401, locked: 429, inactive: 401 };
+
+/** The refusal beside the form; a lockout also answers 429 with Retry-After. */
+function refuse(event: Parameters<Actions['default']>[0], code: string) {
+	const known = code in FAILURE_TEXT ? code : 'wrong-credentials';
+	if (known === 'locked') {
+		const wait = signInRetryAfter.get(event.locals.requestId) ?? LOGIN_PER_ACCOUNT.windowSeconds;
+		event.setHeaders({ 'retry-after': String(wait) });
+	}
+	signInRetryAfter.delete(event.locals.requestId);
+	return known;
+}
 
 const safeTarget = (target: string | null) => (target && target.startsWith('/') && !target.startsWith('//') ? target : '/');
 
 export const load = (async ({ locals, url }) => {
 	if (locals.user) redirect(303, safeTarget(url.searchParams.get('redirectTo')));
 	const form = await superValidate({ redirectTo: safeTarget(url.searchParams.get('redirectTo')) }, zod(signInSchema), { errors: false });
-	return { form, demo: process.env.LOTGATE_DEMO === '1' };
+	return { form, demo: process.env.LOTGATE_DEMO === '1', changed: url.searchParams.get('changed') === '1' };
 }) satisfies PageServerLoad;
 
 export const actions = {
@@ -40,6 +55,7 @@ export const actions = {
 		headers.delete('content-type');
 		headers.delete('content-length');
 		headers.set('x-request-id', event.locals.requestId);
+		headers.set(CLIENT_IP_HEADER, event.getClientAddress());
 		const request = new Request(event.request.url, { method: 'POST', headers, body });
 		try {
 			await signIn({ ...event, request });
@@ -47,15 +63,15 @@ export const actions = {
 			// Auth.js throws the provider's CredentialsSignin (with our reason code) when the check fails.
 			if (thrown instanceof CredentialsSignin) {
 				form.data.password = '';
-				const code = thrown.code in FAILURE_TEXT ? thrown.code : 'wrong-credentials';
-				return message(form, FAILURE_TEXT[code], { status: code === 'locked' ? 423 : 401 });
+				const code = refuse(event, thrown.code);
+				return message(form, FAILURE_TEXT[code], { status: FAILURE_STATUS[code] as 401 });
 			}
 			if (isRedirect(thrown)) {
 				const location = new URL(thrown.location, event.url);
 				if (location.searchParams.has('error')) {
-					const code = location.searchParams.get('code') ?? 'wrong-credentials';
+					const code = refuse(event, location.searchParams.get('code') ?? 'wrong-credentials');
 					form.data.password = '';
-					return message(form, FAILURE_TEXT[code] ?? FAILURE_TEXT['wrong-credentials'], { status: code === 'locked' ? 423 : 401 });
+					return message(form, FAILURE_TEXT[code], { status: FAILURE_STATUS[code] as 401 });
 				}
 				redirect(303, safeTarget(location.pathname + location.search));
 			}

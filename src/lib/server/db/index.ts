@@ -63,6 +63,11 @@ export async function closeDatabase() {
 
 let lastHealthy = 0;
 /** Cheap liveness probe, cached for a few seconds, used to answer 503 when the database is down. */
+/** A connection error seen elsewhere: forget the cached "up" so the health check asks the database again. */
+export function markDatabaseDown() {
+	lastHealthy = 0;
+}
+
 export async function databaseIsUp(): Promise<boolean> {
 	if (Date.now() - lastHealthy < 5000) return true;
 	try {

@@ -7,6 +7,8 @@ export interface Actor {
 	roles: Role[];
 	requestId?: string;
 	instrumentId?: number;
+	/** client address, for per-address rate limits and the audit trail */
+	ip?: string;
 }
 
 export const systemActor: Actor = { id: null, label: 'system', roles: [] };

@@ -307,11 +307,15 @@ async function currentEffective(lotId: number, tx: Transaction) {
 }
 
 /** The second signature of a release despite failed identity: a different QA manager, with their own reason. */
-export async function cosign(actor: Actor, dispositionId: number, input: z.input<typeof cosignSchema>) {
+export async function cosign(actor: Actor, dispositionId: number, input: z.input<typeof cosignSchema>, expectedLotId?: number) {
 	requireQa(actor);
 	const data = cosignSchema.parse(input);
 	return transaction(async (tx) => {
 		const d = await row(dispositionId, tx, true);
+		// Bound to the lot the signer is looking at: a pending release of another lot is never co-signed from this page.
+		if (expectedLotId !== undefined && Number(d.lot_id) !== expectedLotId) {
+			throw new ServiceError(409, 'wrong-lot', 'This pending disposition belongs to another lot: open that lot to co-sign it. Nothing was signed.', 'dispositionId');
+		}
 		if (d.state !== 'awaiting-second-signature') {
 			throw conflict(d.state === 'effective' ? 'This disposition is already in effect: it needs no further signature' : 'This disposition was superseded by a newer one: it can no longer be signed');
 		}

@@ -5,6 +5,7 @@ import lots from './003-lots';
 import modelRebuilds from './004-model-rebuilds';
 import lotsExtra from './005-lots-extra';
 import disposition from './006-disposition';
+import sessionsAndDuties from './020-sessions-and-duties';
 
 export interface Migration {
 	name: string;
@@ -13,4 +14,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties];

@@ -14,6 +14,8 @@ export class User extends Model {
 	declare active: boolean;
 	declare lockedUntil: Date | null;
 	declare passwordChangedAt: Date;
+	declare sessionVersion: number;
+	declare passwordMustChange: boolean;
 	declare createdAt: Date;
 }
 
@@ -130,6 +132,8 @@ export function defineModels(sequelize: Sequelize) {
 			active: { type: BOOLEAN, allowNull: false, defaultValue: true },
 			lockedUntil: { type: DATE },
 			passwordChangedAt: createdAt(),
+			sessionVersion: { type: INTEGER, allowNull: false, defaultValue: 0 },
+			passwordMustChange: { type: BOOLEAN, allowNull: false, defaultValue: false },
 			createdAt: createdAt()
 		},
 		{ ...common, tableName: 'users', modelName: 'User' }

@@ -42,7 +42,17 @@ export const actions = {
 	},
 	roles: async (event) => {
 		const actor = requireUser(event, 'admin');
-		return rowAction(event.request, rolesSchema, (d) => users.setRoles(actor, d.userId, d.roles, d.reason), 'Saved');
+		let pending = false;
+		const result = await rowAction(
+			event.request,
+			rolesSchema,
+			async (d) => {
+				pending = !!(await users.setRoles(actor, d.userId, d.roles, d.reason)).pendingRoleChange;
+			},
+			'Saved'
+		);
+		if (pending && 'rowForm' in result && result.rowForm) result.rowForm.message = 'Recorded: granting QA manager or admin waits for a second admin to approve it (below).';
+		return result;
 	},
 	password: async (event) => {
 		const actor = requireUser(event, 'admin');

@@ -51,7 +51,7 @@ export type DispositionPanelData = Awaited<ReturnType<typeof dispositionPanelDat
 function refuse(form: SuperValidated<any, any>, error: unknown) {
 	form.data.password = '';
 	if (error instanceof ServiceError) {
-		const status = ([401, 403, 409, 423] as number[]).includes(error.status) ? error.status : 400;
+		const status = ([401, 403, 409, 423, 429] as number[]).includes(error.status) ? error.status : 400;
 		if (error.field && error.field in form.data) {
 			(form.errors as Record<string, string[]>)[error.field] = [error.message];
 			return fail(status, { form });
@@ -86,7 +86,9 @@ export async function cosignAction(event: RequestEvent<{ id: string }>) {
 		return fail(400, { form });
 	}
 	try {
-		const out = await dispositions.cosign(actor, form.data.dispositionId, form.data);
+		const lotId = Number(event.params.id);
+		if (!Number.isSafeInteger(lotId) || lotId <= 0) return refuse(form, new ServiceError(404, 'not-found', 'Lot not found'));
+		const out = await dispositions.cosign(actor, form.data.dispositionId, form.data, lotId);
 		form.data.password = '';
 		form.data.reason = '';
 		return message(form, out.message);
