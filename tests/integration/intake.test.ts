@@ -45,7 +45,7 @@ beforeAll(async () => {
 const SESSION_COOKIE = 'authjs.session-token';
 /** A real Auth.js session cookie for the user, signed with the test secret, as the sign-in would set it. */
 async function sessionCookie(actor: Actor) {
-	const value = await encode({ token: { uid: actor.id, name: actor.label, sub: String(actor.id) }, secret: process.env.AUTH_SECRET!, salt: SESSION_COOKIE });
+	const value = await encode({ token: { uid: actor.id, name: actor.label, sub: String(actor.id), sv: 0, authAt: Math.floor(Date.now() / 1000) }, secret: process.env.AUTH_SECRET!, salt: SESSION_COOKIE });
 	return `${SESSION_COOKIE}=${value}`;
 }
 
