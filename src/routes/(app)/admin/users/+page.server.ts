@@ -12,12 +12,14 @@ import type { Actions, PageServerLoad } from './$types';
 const reason = z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500);
 const rolesSchema = z.object({ userId: z.coerce.number().int(), roles: z.array(z.enum(ROLES as [Role, ...Role[]])).min(1, 'Keep at least one role'), reason });
 const passwordSchema = z.object({ userId: z.coerce.number().int(), password: users.passwordSchema, reason });
+const decideSchema = z.object({ requestId: z.coerce.number().int().positive(), decision: z.enum(['approve', 'decline']), reason });
 const activeSchema = z.object({ userId: z.coerce.number().int(), active: z.enum(['true', 'false']), reason });
 
 export const load = (async (event) => {
 	const actor = requireUser(event, 'admin');
 	return {
 		users: await users.list(actor),
+		pendingRoleChanges: await users.pendingRoleChanges(actor),
 		roles: ROLES,
 		createForm: await superValidate(zod(users.newUserSchema), { id: 'create-user' })
 	};
@@ -57,6 +59,10 @@ export const actions = {
 	password: async (event) => {
 		const actor = requireUser(event, 'admin');
 		return rowAction(event.request, passwordSchema, (d) => users.resetPassword(actor, d.userId, d.password, d.reason), 'Saved');
+	},
+	decide: async (event) => {
+		const actor = requireUser(event, 'admin');
+		return rowAction(event.request, decideSchema, (d) => users.decideRoleChange(actor, d.requestId, d.decision === 'approve', d.reason), 'Decided');
 	},
 	active: async (event) => {
 		const actor = requireUser(event, 'admin');
