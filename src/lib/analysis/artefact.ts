@@ -1,12 +1,13 @@
-import canonicalize from 'canonicalize';
 import { AnalysisError } from './errors';
+import { canonicalJson, checkDerived, verifyIntegrity } from './integrity';
 import { isAxisUnit, type ModelAxis } from './axis';
 import { parseRecipe, type FittedRowStep } from './preprocess/recipe';
 import type { ScalingMode } from './preprocess/scaling';
 import type { SpeMethod } from './limits/spe';
 import type { DofEstimator } from './limits/ddsimca';
 
-export const SCHEMA_VERSION = 1;
+/** 2: the artefact carries `integrity` (SHA-256 of its canonical content without that field). */
+export const SCHEMA_VERSION = 2;
 export const ENGINE_VERSION = '1.0.0';
 
 export interface DistanceSet {
@@ -87,26 +88,13 @@ export interface ModelArtefact {
 	models: Record<string, ModelJson>;
 	/** Mean and s.d. (n − 1) of each class's resampled, un-preprocessed spectra on the model axis. */
 	classSpectra: Record<string, { n: number; mean: number[]; sd: number[] }>;
-}
-
-/** Deep copy with non-finite numbers as null (JSON has no NaN/Infinity) and typed arrays as arrays. */
-function plain(value: unknown): unknown {
-	if (typeof value === 'number') return Number.isFinite(value) ? value : null;
-	if (ArrayBuffer.isView(value)) return Array.from(value as unknown as ArrayLike<number>, (x) => (Number.isFinite(x) ? x : null));
-	if (Array.isArray(value)) return value.map(plain);
-	if (value && typeof value === 'object') {
-		const out: Record<string, unknown> = {};
-		for (const [k, v] of Object.entries(value)) if (v !== undefined) out[k] = plain(v);
-		return out;
-	}
-	return value;
+	/** SHA-256 (hex) of the RFC 8785 canonical JSON of everything else; set by buildModel, checked on every load. */
+	integrity?: string;
 }
 
 /** Canonical JSON (RFC 8785 key order and number form): the same artefact always gives the same bytes. */
 export function serializeArtefact(a: ModelArtefact): string {
-	const text = canonicalize(plain(a));
-	if (text === undefined) throw new AnalysisError('bad-artefact', 'artefact cannot be serialised');
-	return text;
+	return canonicalJson(a);
 }
 
 const fail = (msg: string): never => {
@@ -161,6 +149,7 @@ export function parseArtefact(text: string): ModelArtefact {
 export function validateArtefact(raw: unknown): ModelArtefact {
 	if (!raw || typeof raw !== 'object' || Array.isArray(raw)) return fail('must be a JSON object');
 	const o = raw as Record<string, unknown>;
+	if (o.schemaVersion === 1) fail('schemaVersion 1 was built before artefacts carried an integrity field and cannot be verified: rebuild the model');
 	if (o.schemaVersion !== SCHEMA_VERSION) fail(`schemaVersion ${String(o.schemaVersion)} is not supported (this engine reads ${SCHEMA_VERSION})`);
 	const axis = o.axis as Record<string, unknown> | undefined;
 	if (!axis || typeof axis !== 'object') fail('axis is missing');
@@ -184,5 +173,8 @@ export function validateArtefact(raw: unknown): ModelArtefact {
 	if (o.genuine !== null && !(o.classes as string[]).includes(o.genuine as string)) fail(`genuine class "${String(o.genuine)}" is not among the classes`);
 	if ((o.classes as string[]).length > 0 && o.genuine === null) fail('a class model set needs a genuine class');
 	if (typeof o.meta !== 'object' || o.meta === null) fail('meta must be an object');
+	// after the shape (so a broken file names what is broken): the content hash, then every derivable quantity
+	verifyIntegrity(o);
+	checkDerived(raw as ModelArtefact);
 	return raw as ModelArtefact;
 }

@@ -8,6 +8,8 @@ import { crossValidate, foldLayout, smallestFold, suggestComponents } from './cr
 import { t2LimitNew, t2LimitTraining } from './limits/hotelling';
 import { speBox, speJacksonMudholkar, speMoments, SPE_METHODS, type SpeMethod } from './limits/spe';
 import { cCritical, cOutlier, ddStatistic, estimateDof, type DofEstimator } from './limits/ddsimca';
+import { sealArtefact } from './integrity';
+import { alphaRefusal } from './alpha-bounds';
 import { ENGINE_VERSION, SCHEMA_VERSION, type DistanceSet, type ModelArtefact, type ModelJson } from './artefact';
 
 export interface SpectrumInput {
@@ -216,6 +218,10 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 	} = options;
 	checkProbability('alpha', alpha);
 	checkProbability('familyAlpha', familyAlpha);
+	for (const [kind, a] of [['class', alpha], ['family', familyAlpha]] as const) {
+		const refusal = alphaRefusal(kind, a);
+		if (refusal) throw new AnalysisError('bad-alpha', refusal);
+	}
 	checkProbability('gamma', gamma);
 	if (limits !== 'cv' && limits !== 'training') throw new AnalysisError('bad-option', `limits must be "cv" or "training", got ${String(limits)}`);
 	if (!SPE_METHODS.includes(speLimit)) throw new AnalysisError('bad-option', `speLimit must be one of ${SPE_METHODS.join(', ')}, got ${String(speLimit)}`);
@@ -316,7 +322,7 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 	report({ stage: 'done', model: '', message: 'model built' }, total, total);
 	const sortedMeta: Record<string, string> = {};
 	for (const k of Object.keys(meta).sort()) sortedMeta[k] = String(meta[k]);
-	return {
+	return sealArtefact({
 		schemaVersion: SCHEMA_VERSION,
 		engineVersion: ENGINE_VERSION,
 		meta: sortedMeta,
@@ -329,5 +335,5 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 		family,
 		models,
 		classSpectra
-	};
+	});
 }

@@ -40,7 +40,17 @@ describe('lotgate command line on the gasoline CSV (Kalivas 1997)', () => {
 		expect(s.stdout).toMatch(/genuine c\/crit/);
 		expect(s.stdout.split('\n').length).toBeGreaterThan(60);
 	});
-	test('errors go to stderr with a non-zero exit, naming file, line and column', () => {
+	test('a tampered model is refused by screen, naming the integrity check (issue 12 §2)', { timeout: 60_000 }, () => {
+		const art = JSON.parse(readFileSync(model, 'utf8'));
+		art.family.cCrit = 1e9;
+		const tampered = join(dir, 'tampered.json');
+		writeFileSync(tampered, JSON.stringify(art));
+		const s = run('screen', '--model', tampered, '--input', fixture('gasoline_nir.csv'));
+		expect(s.status).toBe(1);
+		expect(s.stdout).toBe('');
+		expect(s.stderr).toContain(`${tampered}: model artefact: integrity check failed`);
+	});
+	test('errors go to stderr with a non-zero exit, naming file, line and column', { timeout: 60_000 }, () => {
 		const bad = join(dir, 'bad.csv');
 		writeFileSync(bad, 'id,900,902,904\na,1,2,3\nb,1,x,3\n');
 		const r = run('build', '--train', bad, '--out', join(dir, 'x.json'));

@@ -5,10 +5,12 @@ import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { buildModel, evaluate, parseRecipe, prepareArtefact, screen, serializeArtefact, type ModelArtefact, type ValidationReport } from '../../analysis';
 import { chi2Inv } from '../../analysis/quantiles';
+import { alphaRefusal } from '../../analysis/alpha-bounds';
 import { convertAxis, resampleOnto } from '../../analysis/axis';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
+import { prepareStored } from './artefact-store';
 import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
 import * as library from './library';
 import * as materials from './materials';
@@ -28,6 +30,12 @@ export const GROUPINGS = ['supplier_lot', 'supplier', 'instrument', 'none'] as c
 /** At least this many included training spectra per class, and at least A + 3 when A is fixed. */
 export const MIN_PER_CLASS = 10;
 export const minimumFor = (components: number | 'auto') => Math.max(MIN_PER_CLASS, components === 'auto' ? 0 : components + 3);
+
+/** α bounds for identity use (issue 12): the engine refuses the same values, with the same reason. */
+const alphaIssue = (kind: 'class' | 'family') => (a: number, ctx: z.RefinementCtx) => {
+	const refusal = alphaRefusal(kind, a);
+	if (refusal) ctx.addIssue({ code: 'custom', message: refusal[0].toUpperCase() + refusal.slice(1) });
+};
 
 const components = z.union([z.literal('auto'), z.coerce.number().int('Components must be a whole number').min(1, 'At least 1 component').max(30, 'At most 30 components')]);
 const componentsInput = z.preprocess((v) => (v === '' || v == null ? 'auto' : v), components);
@@ -50,8 +58,8 @@ export const buildParamsSchema = z.object({
 		}),
 	components: componentsInput.default('auto'),
 	familyComponents: componentsInput.default('auto'),
-	alpha: z.coerce.number().gt(0, 'α must be above 0').lt(0.5, 'α must be below 0.5').default(0.05),
-	familyAlpha: z.coerce.number().gt(0, 'Family α must be above 0').lt(0.5, 'Family α must be below 0.5').default(0.01),
+	alpha: z.coerce.number().superRefine(alphaIssue('class')).default(0.05),
+	familyAlpha: z.coerce.number().superRefine(alphaIssue('family')).default(0.01),
 	gamma: z.coerce.number().gt(0, 'γ must be above 0').lt(0.5, 'γ must be below 0.5').default(0.01),
 	limits: z.enum(['cv', 'training'], { errorMap: () => ({ message: 'Limits come from cv or training' }) }).default('cv'),
 	folds: z.coerce.number().int().min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
@@ -273,8 +281,10 @@ export async function listForMaterial(materialId: number) {
 export async function artefactText(ref: string | number): Promise<{ text: string; sha256: string; label: string }> {
 	const r = await row(await resolve(ref));
 	if (!r.artefact) throw new ServiceError(409, 'no-artefact', r.state === 'failed' ? `This version failed to build: ${r.error}` : 'This version has no artefact yet: it is still building');
-	const text = serializeArtefact(r.artefact);
 	const material = await materials.get(r.material_id);
+	// hand out only an artefact that passes the same checks as screening (integrity, derivable limits, recorded hash)
+	prepareStored(`${material.code} v${r.version}`, r.artefact, r.artefact_sha256);
+	const text = serializeArtefact(r.artefact);
 	return { text, sha256: createHash('sha256').update(text).digest('hex'), label: `${material.code}-v${r.version}` };
 }
 

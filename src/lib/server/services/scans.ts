@@ -6,6 +6,7 @@ import { z } from 'zod';
 import { prepareArtefact, screen, type PreparedArtefact, type ScreenResult } from '../../analysis';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
+import { prepareStored } from './artefact-store';
 import * as alerts from './alerts';
 import * as audit from './audit';
 import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
@@ -47,7 +48,9 @@ export async function preparedVersion(versionId: number): Promise<ApprovedModel 
 	);
 	const r = rows[0];
 	if (!r?.artefact) return null;
-	const model: ApprovedModel = { versionId: Number(r.id), label: `${r.code} v${r.version}`, sha256: r.artefact_sha256 ?? '', prep: prepareArtefact(r.artefact) };
+	const label = `${r.code} v${r.version}`;
+	// every cache fill re-verifies the artefact (integrity field, derivable limits, recorded SHA-256)
+	const model: ApprovedModel = { versionId: Number(r.id), label, sha256: r.artefact_sha256 ?? '', prep: prepareStored(label, r.artefact, r.artefact_sha256) };
 	preparedCache.set(model.versionId, model);
 	return model;
 }

@@ -1,6 +1,7 @@
 // The build form's schema (browser and server): strings where the form sends strings; the service re-validates everything.
 import { z } from 'zod';
 import { parseRecipe } from '$lib/analysis/preprocess/recipe';
+import { alphaRefusal } from '$lib/analysis/alpha-bounds';
 
 const componentsField = z
 	.string()
@@ -9,6 +10,11 @@ const componentsField = z
 	.default('auto')
 	.refine((v) => v === 'auto' || (/^\d+$/.test(v) && Number(v) >= 1 && Number(v) <= 30), 'Use auto, or a whole number from 1 to 30');
 const probability = (what: string) => z.coerce.number({ invalid_type_error: `${what} must be a number` }).gt(0, `${what} must be above 0`).lt(0.5, `${what} must be below 0.5`);
+
+const alphaBound = (kind: 'class' | 'family') => (a: number, ctx: z.RefinementCtx) => {
+	const refusal = alphaRefusal(kind, a);
+	if (refusal) ctx.addIssue({ code: 'custom', message: refusal[0].toUpperCase() + refusal.slice(1) });
+};
 
 export const buildFormSchema = z.object({
 	recipe: z
@@ -24,8 +30,8 @@ export const buildFormSchema = z.object({
 		}),
 	familyComponents: componentsField,
 	components: componentsField,
-	alpha: probability('α').default(0.05),
-	familyAlpha: probability('Family α').default(0.01),
+	alpha: probability('α').superRefine(alphaBound('class')).default(0.05),
+	familyAlpha: probability('Family α').superRefine(alphaBound('family')).default(0.01),
 	gamma: probability('γ').default(0.01),
 	limits: z.enum(['cv', 'training']).default('cv'),
 	folds: z.coerce.number().int('Folds must be a whole number').min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
