@@ -93,7 +93,7 @@ describe('scanning and verdicts', () => {
 		expect(view.scans[0].title).toBe('C5001.jdx');
 	});
 
-	it('a diluted container fails identity with the right profile; a rescan adds a row and the latest valid one counts', async () => {
+	it('a diluted container fails identity with the right profile; a rescan adds a row and never replaces the failing result', async () => {
 		const lot = await receive(2);
 		await scans.add(tech, lot.id, { ...file('genuine', 6001), container: 1 });
 		const bad = await scans.add(tech, lot.id, { ...file('diluted-starch', 6002), container: 2 });
@@ -102,14 +102,14 @@ describe('scanning and verdicts', () => {
 		let view = await lots.get(lot.id);
 		expect(view.identity).toBe('fails');
 		expect(view.outcome.summary).toMatch(/quarantine recommended.*container 2 suspect \(diluted-starch\)/);
-		// An unusable rescan does not replace the valid one; a genuine rescan does.
+		// Neither an unusable nor a genuine rescan replaces the failing result (issue #11: only an approved invalidation does).
 		await scans.add(tech, lot.id, { bytes: corrupt(fx.axis, 6003), fileName: 'C02-broken.jdx', container: 2 });
 		view = await lots.get(lot.id);
 		expect(view.identity).toBe('fails');
 		await scans.add(tech, lot.id, { ...file('genuine', 6004), container: 2 });
 		view = await lots.get(lot.id);
 		expect(view.scans.filter((s) => s.container === 2)).toHaveLength(3);
-		expect(view.identity).toBe('meets');
+		expect(view.identity).toBe('fails');
 	});
 
 	it('an unseen adulteration is never genuine; a wrong material is not-this-material', async () => {

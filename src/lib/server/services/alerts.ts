@@ -7,9 +7,11 @@
 //            something other than what was ordered.
 //   medium — unknown: inside the material family but accepted by no class model. Possibly a new adulteration, possibly
 //            an unusual genuine lot; it calls for investigation, not a conclusion about the supplier.
-//   low    — unusable: the file or spectrum was invalid (truncated, wrong technique, range not covered). It says nothing
-//            about the material yet, but repeated ones point at labelling or packaging that hinders scanning.
-// `not-screened` (no approved model) opens no alert: it is our gap, not the supplier's.
+//   low    — kept for alerts opened before issue #11; no new alert has it.
+// `unusable` (a file or spectrum that failed a quality gate: unreadable, flat, saturated, no sample, wrong ordinate,
+// wrong technique or axis) and `not-screened` (no approved model) open no alert: they are laboratory problems, not the
+// supplier's. An alert, once opened by a valid non-genuine scan, stays even if that scan is later invalidated; the
+// invalidation is added to its findings (see `noteInvalidation`) and procurement closes it.
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { sequelize, transaction } from '../db';
@@ -53,6 +55,7 @@ const verdictText = (f: { verdict: string; profile?: string | null }) => (f.verd
  * findings to it, and raises its severity when a worse verdict arrives. Mails procurement on opening and raising.
  */
 export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFinding) {
+	if (scan.verdict === 'unusable' || scan.verdict === 'not-screened') return null;
 	const level = SEVERITY_OF[scan.verdict];
 	if (!level) return null;
 	const [lot] = await sequelize().query<{ internal_lot: string; supplier_id: number; material_id: number; supplier_code: string; supplier_name: string; material_code: string }>(
@@ -152,13 +155,19 @@ export interface AlertView {
 	lot: { id: number; internalLot: string; supplierLot: string };
 	scanId: number;
 	findings: { scanId: number; container: number; verdict: string; profile: string | null; reason: string | null; severity: Severity }[];
+	/** Invalidations proposed for the scans behind the findings: the alert stays, and shows them (issue #11). */
+	invalidations: { scanId: number; container: number; state: 'proposed' | 'approved' | 'refused'; cause: string; description: string; proposedBy: string; decidedBy: string | null; decidedAt: string | null }[];
 	openedAt: string;
 	acknowledged: { by: string | null; at: string; note: string } | null;
 	closed: { by: string | null; at: string; note: string } | null;
 }
 
 const SELECT = `SELECT a.*, s.code AS supplier_code, s.name AS supplier_name, m.code AS material_code, l.internal_lot, l.supplier_lot,
-        ua.name AS acknowledged_by_name, uc.name AS closed_by_name, count(*) OVER () AS total
+        ua.name AS acknowledged_by_name, uc.name AS closed_by_name, count(*) OVER () AS total,
+        (SELECT coalesce(jsonb_agg(jsonb_build_object('scanId', iv.scan_id, 'container', sc.container, 'state', iv.state, 'cause', iv.cause,
+                  'description', iv.description, 'proposedBy', pu.name, 'decidedBy', du.name, 'decidedAt', iv.decided_at) ORDER BY iv.id), '[]'::jsonb)
+           FROM scan_invalidations iv JOIN scans sc ON sc.id = iv.scan_id JOIN users pu ON pu.id = iv.proposed_by LEFT JOIN users du ON du.id = iv.decided_by
+          WHERE iv.lot_id = a.lot_id AND iv.scan_id IN (SELECT (f->>'scanId')::integer FROM jsonb_array_elements(a.findings) f)) AS invalidations
    FROM alerts a JOIN suppliers s ON s.id = a.supplier_id JOIN materials m ON m.id = a.material_id JOIN lots l ON l.id = a.lot_id
    LEFT JOIN users ua ON ua.id = a.acknowledged_by LEFT JOIN users uc ON uc.id = a.closed_by`;
 
@@ -176,6 +185,7 @@ function toView(r: Record<string, unknown>): AlertView {
 		lot: { id: Number(r.lot_id), internalLot: r.internal_lot as string, supplierLot: r.supplier_lot as string },
 		scanId: Number(r.scan_id),
 		findings: (r.findings as AlertView['findings']) ?? [],
+		invalidations: ((r.invalidations as AlertView['invalidations']) ?? []).map((v) => ({ ...v, decidedAt: v.decidedAt ? new Date(v.decidedAt).toISOString() : null })),
 		openedAt: iso(r.opened_at),
 		acknowledged: r.acknowledged_at ? { by: (r.acknowledged_by_name as string | null) ?? null, at: iso(r.acknowledged_at), note: r.acknowledge_note as string } : null,
 		closed: r.closed_at ? { by: (r.closed_by_name as string | null) ?? null, at: iso(r.closed_at), note: r.close_note as string } : null

@@ -12,6 +12,7 @@ import { queueMail } from '../mail';
 import { certificateDocumentHash, renderCertificate, type CertificateContainer, type CertificateContent, type CertificateStats } from '../reports/certificate-pdf';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
+import * as containerResults from './container-results';
 import { conflict, forbidden, notFound, ServiceError } from './errors';
 import * as lots from './lots';
 import * as signatures from './signatures';
@@ -61,15 +62,47 @@ interface SignedRecord {
 	};
 	identity: string;
 	identitySummary: string;
-	/** Every sampled container with the scan that counts for it (null while it awaits one). */
-	scans: { container: number; scanId: number | null; verdict: string; profile: string | null; ambiguous: boolean; fileName: string | null; sha256: string | null; modelVersionId: number | null }[];
+	/**
+	 * Every sampled container with its result (`verdict`) and the decisive scan (the latest counting scan with that
+	 * verdict; null while it awaits one), plus its whole scan history with any invalidation.
+	 */
+	scans: {
+		container: number;
+		scanId: number | null;
+		verdict: string;
+		profile: string | null;
+		ambiguous: boolean;
+		fileName: string | null;
+		sha256: string | null;
+		modelVersionId: number | null;
+		replicates?: { done: number; required: number };
+		history?: RecordScan[];
+	}[];
+	/** Some container ever had a valid non-genuine scan: a release takes two signatures. */
+	failingHistory?: boolean;
 	modelVersions: { id: number; label: string; artefactSha256: string | null }[];
+}
+
+export interface RecordScan {
+	scanId: number;
+	verdict: string;
+	profile: string | null;
+	fileName: string;
+	sha256: string;
+	counts: boolean;
+	invalidated: { cause: string; description: string; proposedBy: string; approvedBy: string; at: string } | null;
 }
 
 async function buildRecord(lotId: number, dispositionId: number, decision: Decision, supersedes: number | null, tx: Transaction): Promise<SignedRecord> {
 	const lot = await lots.get(lotId, tx);
-	const counted = new Map(lot.scans.filter((s) => s.counts).map((s) => [s.container, s]));
-	const versionIds = [...new Set([...counted.values()].map((s) => s.modelVersion?.id).filter((v): v is number => v != null))].sort((a, b) => a - b);
+	const byNumber = new Map(lot.containers.map((c) => [c.number, c]));
+	// The decisive scan of a container: the latest counting scan whose verdict is the container's result.
+	const counted = new Map(
+		lot.containers
+			.map((c) => [c.number, [...c.scans].reverse().find((s) => s.counts && s.verdict === c.result)] as const)
+			.filter((e): e is readonly [number, lots.ScanView] => !!e[1])
+	);
+	const versionIds = [...new Set(lot.scans.filter((s) => s.counts).map((s) => s.modelVersion?.id).filter((v): v is number => v != null))].sort((a, b) => a - b);
 	const versions = versionIds.length
 		? await sequelize().query<{ id: number; version: number; artefact_sha256: string | null }>('SELECT id, version, artefact_sha256 FROM model_versions WHERE id IN (:ids) ORDER BY id', {
 				replacements: { ids: versionIds },
@@ -108,10 +141,16 @@ async function buildRecord(lotId: number, dispositionId: number, decision: Decis
 			.sort((a, b) => a - b)
 			.map((container) => {
 				const s = counted.get(container);
+				const c = byNumber.get(container)!;
+				const extra = {
+					replicates: c.replicates,
+					history: c.scans.map((h) => ({ scanId: h.id, verdict: h.verdict, profile: h.profile, fileName: h.fileName, sha256: h.sha256, counts: h.counts, invalidated: h.invalidated }))
+				};
 				return s
-					? { container, scanId: s.id, verdict: s.verdict, profile: s.profile, ambiguous: s.ambiguous, fileName: s.fileName, sha256: s.sha256, modelVersionId: s.modelVersion?.id ?? null }
-					: { container, scanId: null, verdict: 'awaiting-scan', profile: null, ambiguous: false, fileName: null, sha256: null, modelVersionId: null };
+					? { container, scanId: s.id, verdict: c.result ?? s.verdict, profile: c.profile ?? s.profile, ambiguous: s.ambiguous, fileName: s.fileName, sha256: s.sha256, modelVersionId: s.modelVersion?.id ?? null, ...extra }
+					: { container, scanId: null, verdict: 'awaiting-scan', profile: null, ambiguous: false, fileName: null, sha256: null, modelVersionId: null, ...extra };
 			}),
+		failingHistory: lot.failingHistory,
 		modelVersions: versions.map((v) => ({ id: Number(v.id), label: `${lot.material.code} v${v.version}`, artefactSha256: v.artefact_sha256 }))
 	};
 }
@@ -222,7 +261,9 @@ export async function dispose(actor: Actor, lotRef: number | string, input: Disp
 			const why = lot.identity === 'not-screened' ? 'the material has no approved model, so the lot is not screened' : 'screening is not complete (containers still await a valid scan)';
 			throw new ServiceError(409, 'screening-incomplete', `Lot ${lot.internal_lot} cannot be ${DECISION_TEXT[data.decision]}: ${why}. Quarantine is possible at any time.`, 'decision');
 		}
-		const needsSecond = data.decision === 'release' && lot.identity === 'fails';
+		// Two signatures for any failing history: also when the failing scan was invalidated and the retest is genuine.
+		const failingHistory = await containerResults.hasFailingHistory(lotId, tx);
+		const needsSecond = data.decision === 'release' && (lot.identity === 'fails' || failingHistory);
 		const effective = await currentEffective(lotId, tx);
 		const pending = await sequelize().query<{ id: number }>("SELECT id FROM dispositions WHERE lot_id = :lotId AND state = 'awaiting-second-signature' FOR UPDATE", {
 			replacements: { lotId },
@@ -287,7 +328,7 @@ export async function dispose(actor: Actor, lotRef: number | string, input: Disp
 			disposition: view,
 			manifestation,
 			message: needsSecond
-				? `Signed. Lot ${lot.internal_lot} failed identity, so its release needs a second signature from a different QA manager; the lot stays ${lots.STATUS_LABELS[lot.status]} until then.`
+				? `Signed. Lot ${lot.internal_lot} ${lot.identity === 'fails' ? 'failed identity' : 'had a non-genuine container result (since invalidated)'}, so its release needs a second signature from a different QA manager; the lot stays ${lots.STATUS_LABELS[lot.status]} until then.`
 				: `Lot ${lot.internal_lot} ${DECISION_TEXT[data.decision]}.`
 		};
 	});

@@ -7,6 +7,7 @@ import { makePlan, PLAN_KINDS, PLAN_LABELS, reducedPlanRefusal, type PlanKind, t
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
+import * as containerResults from './container-results';
 import { conflict, forbidden, invalid, notFound } from './errors';
 
 export type LotStatus = 'awaiting-scans' | 'screened' | 'released' | 'quarantined' | 'rejected';
@@ -337,8 +338,12 @@ export interface ScanView {
 	profile: string | null;
 	ambiguous: boolean;
 	reason: string | null;
-	/** The counted scan of its container (latest valid one). */
+	/** A valid scan whose result counts for its container: every valid scan does, until an approved invalidation. */
 	counts: boolean;
+	/** null, or the approved invalidation of this scan. */
+	invalidated: containerResults.Invalidated | null;
+	/** The latest invalidation proposal of this scan in any state (proposed, approved, refused), for the lot page. */
+	invalidation: containerResults.InvalidationView | null;
 	statistics: { family: ModelStatsView | null; classes: Record<string, ModelStatsView> } | null;
 	modelVersion: { id: number; label: string } | null;
 	spectrumId: number;
@@ -355,11 +360,21 @@ export interface ScanView {
 export interface ContainerView {
 	number: number;
 	sampled: boolean;
-	/** The scan that counts for this container, if any. */
+	/** The latest scan that counts for this container, if any. */
 	countedScanId: number | null;
+	/** The container's result under the result policy (src/lib/analysis/container-result.ts); null if not sampled and never scanned. */
+	result: containerResults.ContainerResultWord | null;
+	/** Same as result (kept for older callers). */
 	verdict: ScanVerdict | 'awaiting-scan' | null;
 	profile: string | null;
+	/** The result is final: genuine with every replicate done, or failing. */
+	decided: boolean;
+	replicates: { done: number; required: number };
+	/** Some valid scan of it was ever non-genuine (even if invalidated since). */
+	everFailed: boolean;
 	scanCount: number;
+	/** Every scan of the container, in upload order. */
+	scans: ScanView[];
 }
 
 const finite = (x: unknown) => (typeof x === 'number' && Number.isFinite(x) ? x : null);
@@ -381,18 +396,23 @@ function statsView(s: Record<string, unknown> | null | undefined): ModelStatsVie
 }
 
 /** The outcome shown in the lot header: identity, what it means, and which containers fail and why. */
-export function outcomeOf(status: LotStatus, identity: Identity, counted: ScanView[], sampled: number[]) {
-	const failures = counted
-		.filter((s) => s.verdict !== 'genuine')
-		.map((s) => ({ container: s.container, verdict: s.verdict, profile: s.profile, ambiguous: s.ambiguous, reason: s.reason }));
-	const waiting = sampled.filter((c) => !counted.some((s) => s.container === c));
+export function outcomeOf(status: LotStatus, identity: Identity, sampledContainers: Pick<ContainerView, 'number' | 'result' | 'profile' | 'decided' | 'replicates' | 'scans'>[], replicates = 1) {
+	const failures = sampledContainers
+		.filter((c) => c.decided && c.result !== 'genuine')
+		.map((c) => {
+			const decisive = [...c.scans].reverse().find((s) => s.counts && s.verdict === c.result);
+			return { container: c.number, verdict: c.result as ScanVerdict, profile: c.profile, ambiguous: decisive?.ambiguous ?? false, reason: decisive?.reason ?? null };
+		});
+	const waiting = sampledContainers.filter((c) => !c.decided).map((c) => c.number);
+	const sampledCount = sampledContainers.length;
 	const investigation = failures.some((f) => f.verdict === 'unknown' || f.verdict === 'not-this-material');
 	let summary: string;
-	if (identity === 'meets') summary = 'Meets identity: every sampled container is genuine.';
+	if (identity === 'meets') summary = `Meets identity: every sampled container is genuine${replicates > 1 ? ` in all ${replicates} replicates` : ''}.`;
 	else if (identity === 'fails')
 		summary = `Fails identity, quarantine recommended: ${failures.map((f) => `container ${f.container} ${f.verdict}${f.profile ? ` (${f.profile})` : ''}`).join('; ')}.`;
 	else if (identity === 'not-screened') summary = 'Not screened: the material has no approved model version, so the lot cannot go forward.';
-	else summary = `Awaiting scans: ${waiting.length} of ${sampled.length} sampled container${sampled.length === 1 ? '' : 's'} still need${waiting.length === 1 ? 's' : ''} a valid scan.`;
+	else
+		summary = `Awaiting scans: ${waiting.length} of ${sampledCount} sampled container${sampledCount === 1 ? '' : 's'} still need${waiting.length === 1 ? 's' : ''} ${replicates > 1 ? `${replicates} genuine replicate scans or a failing one` : 'a valid scan'}.`;
 	return {
 		status,
 		identity,
@@ -427,10 +447,17 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 		  WHERE sc.lot_id = :id ORDER BY sc.container, sc.id`,
 		{ replacements: { id }, type: QueryTypes.SELECT, transaction: tx }
 	);
+	const invalidations = await containerResults.forLot(id, tx);
+	const invalidationOf = containerResults.latestByScan(invalidations);
+	const approved = new Set(invalidations.filter((v) => v.state === 'approved').map((v) => v.scanId));
+	const replicates = await containerResults.replicatesOf(id, tx);
 	const countedIds = new Set<number>();
 	const latestValid = new Map<number, number>();
-	for (const r of scanRows) if ((VALID_VERDICTS as readonly string[]).includes(r.verdict as string)) latestValid.set(Number(r.container), Number(r.id));
-	for (const v of latestValid.values()) countedIds.add(v);
+	for (const r of scanRows) {
+		if (!(VALID_VERDICTS as readonly string[]).includes(r.verdict as string) || approved.has(Number(r.id))) continue;
+		latestValid.set(Number(r.container), Number(r.id));
+		countedIds.add(Number(r.id));
+	}
 	const materialCode = meta.material_code as string;
 	const scans: ScanView[] = scanRows.map((r) => {
 		const classes = (r.classes ?? null) as Record<string, Record<string, unknown>> | null;
@@ -443,6 +470,8 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 			ambiguous: r.ambiguous === true,
 			reason: (r.reason as string | null) ?? null,
 			counts: countedIds.has(Number(r.id)),
+			invalidated: containerResults.invalidatedOf(invalidationOf.get(Number(r.id))),
+			invalidation: invalidationOf.get(Number(r.id)) ?? null,
 			statistics: family || classes ? { family: statsView(family), classes: Object.fromEntries(Object.entries(classes ?? {}).map(([k, s]) => [k, statsView(s)!])) } : null,
 			modelVersion: r.model_version_id ? { id: Number(r.model_version_id), label: `${materialCode} v${r.model_version}` } : null,
 			spectrumId: Number(r.spectrum_id),
@@ -459,22 +488,26 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 	const sampledSet = new Set(lot.sampled);
 	const byContainer = new Map<number, ScanView[]>();
 	for (const s of scans) byContainer.set(s.container, [...(byContainer.get(s.container) ?? []), s]);
-	const containers: ContainerView[] = Array.from({ length: lot.containers }, (_, i) => {
-		const number = i + 1;
+	const numbers = Array.from({ length: lot.containers }, (_, i) => i + 1);
+	const results = containerResults.resultsOf(scans, invalidations, numbers, replicates);
+	const containers: ContainerView[] = numbers.map((number) => {
 		const own = byContainer.get(number) ?? [];
-		const countedId = latestValid.get(number) ?? null;
-		const counted = countedId ? own.find((s) => s.id === countedId)! : null;
-		const last = own[own.length - 1];
+		const r = results.get(number)!;
+		const shown = own.length || sampledSet.has(number) ? r.result : null;
 		return {
 			number,
 			sampled: sampledSet.has(number),
-			countedScanId: countedId,
-			verdict: counted ? counted.verdict : last ? last.verdict : sampledSet.has(number) ? 'awaiting-scan' : null,
-			profile: counted?.profile ?? null,
-			scanCount: own.length
+			countedScanId: latestValid.get(number) ?? null,
+			result: shown,
+			verdict: shown,
+			profile: r.profile,
+			decided: r.decided,
+			replicates: { done: r.replicatesDone, required: r.replicatesRequired },
+			everFailed: r.everFailed,
+			scanCount: own.length,
+			scans: own
 		};
 	});
-	const counted = scans.filter((s) => s.counts && sampledSet.has(s.container));
 	return {
 		id: lot.id,
 		internalLot: lot.internal_lot,
@@ -492,7 +525,11 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 		supplierFlag: lot.supplier_flag,
 		supplierFlagText: supplierFlagText(lot.supplier_flag, meta.supplier_code as string),
 		closed: isClosed(lot),
-		outcome: outcomeOf(lot.status, lot.identity, counted, lot.sampled),
+		outcome: outcomeOf(lot.status, lot.identity, containers.filter((c) => c.sampled), replicates),
+		replicates,
+		invalidations,
+		/** A release needs two QA signatures: some sampled container ever had a valid non-genuine scan. */
+		failingHistory: containers.some((c) => c.sampled && c.everFailed),
 		createdBy: (meta.created_by_name as string | null) ?? null,
 		createdAt: new Date(lot.created_at).toISOString(),
 		containers,

@@ -10,8 +10,9 @@ import { prepareStored } from './artefact-store';
 import * as alerts from './alerts';
 import * as audit from './audit';
 import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
+import * as containerResults from './container-results';
 import * as lots from './lots';
-import { isClosed, VALID_VERDICTS, type Identity, type LotStatus, type ScanVerdict } from './lots';
+import { isClosed, type Identity, type LotStatus, type ScanVerdict } from './lots';
 import * as intake from './spectra';
 
 export { isClosed };
@@ -288,9 +289,10 @@ async function insertScan(tx: Transaction, actor: Actor, s: ScanInsert) {
 }
 
 /**
- * Lot status from the latest valid scan of each sampled container: awaiting-scans until every one has one, then
- * screened with identity meets (all genuine) or fails. A dispositioned or quarantined lot keeps its status; its
- * identity still follows the scans. Audits a change. Exported for the disposition workflow.
+ * Lot status from every scan of each sampled container under the result policy (container-results.ts): awaiting-scans
+ * until every container is decided, then screened with identity meets (all genuine) or fails. A dispositioned or
+ * quarantined lot keeps its status; its identity still follows the scans. Audits a change. Exported for the
+ * disposition and invalidation workflows.
  */
 export async function recomputeStatus(
 	tx: Transaction,
@@ -299,22 +301,9 @@ export async function recomputeStatus(
 	locked?: Awaited<ReturnType<typeof lots.lotRow>>
 ): Promise<{ status: LotStatus; identity: Identity; changed: boolean }> {
 	const lot = locked ?? (await lots.lotRow(lotId, tx, true));
-	const latest = await sequelize().query<{ container: number; verdict: ScanVerdict; valid: boolean }>(
-		`SELECT DISTINCT ON (container, valid) container, verdict, valid FROM (
-		   SELECT container, verdict, id, verdict IN (:valid) AS valid FROM scans WHERE lot_id = :lotId) s
-		  ORDER BY container, valid, id DESC`,
-		{ replacements: { lotId, valid: VALID_VERDICTS }, type: QueryTypes.SELECT, transaction: tx }
-	);
-	const validBy = new Map<number, ScanVerdict>();
-	const anyNotScreened = new Set<number>();
-	for (const r of latest) {
-		if (r.valid) validBy.set(Number(r.container), r.verdict);
-		else if (r.verdict === 'not-screened') anyNotScreened.add(Number(r.container));
-	}
-	const complete = lot.sampled.every((c) => validBy.has(c));
-	let identity: Identity = null;
-	if (complete) identity = lot.sampled.every((c) => validBy.get(c) === 'genuine') ? 'meets' : 'fails';
-	else if (lot.sampled.some((c) => !validBy.has(c) && anyNotScreened.has(c))) identity = 'not-screened';
+	const outcome = await containerResults.lotOutcome(tx, lotId, lot.sampled);
+	const complete = outcome.complete;
+	const identity: Identity = outcome.identity;
 	let status = lot.status;
 	if (status === 'awaiting-scans' || status === 'screened') status = complete ? 'screened' : 'awaiting-scans';
 	const changed = status !== lot.status || identity !== lot.identity;

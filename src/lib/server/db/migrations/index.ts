@@ -6,6 +6,7 @@ import modelRebuilds from './004-model-rebuilds';
 import lotsExtra from './005-lots-extra';
 import disposition from './006-disposition';
 import sessionsAndDuties from './020-sessions-and-duties';
+import resultIntegrity from './030-result-integrity';
 
 export interface Migration {
 	name: string;
@@ -14,4 +15,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity];

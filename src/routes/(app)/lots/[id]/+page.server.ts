@@ -7,6 +7,7 @@ import * as scans from '$lib/server/services/scans';
 import { SCREENING_CAUTION } from '$lib/caution';
 import { lotPageData } from './evidence.server';
 import { cosignAction, disposeAction, dispositionPanelData } from './disposition.server';
+import { decideAction, invalidationPageData, proposeAction } from './invalidation.server';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load = (async (event) => {
@@ -18,7 +19,8 @@ export const load = (async (event) => {
 		caution: SCREENING_CAUTION,
 		canScan: hasRole(actor, 'technician', 'admin') && !lot.closed,
 		instruments: (await instruments.list()).filter((i) => i.active).map((i) => ({ id: i.id, name: i.name, technique: i.technique })),
-		disposition: await dispositionPanelData(actor, lot)
+		disposition: await dispositionPanelData(actor, lot),
+		invalidation: { ...invalidationPageData(actor), open: !lot.closed }
 	};
 }) satisfies PageServerLoad;
 
@@ -26,6 +28,10 @@ export const actions = {
 	/** QA disposition with an electronic signature, and the second signature of a release despite failed identity. */
 	dispose: (event) => disposeAction(event),
 	cosign: (event) => cosignAction(event),
+	/** Invalidation of one scan's result: proposed by a technician/chemometrician, decided by another person in QA with a signature. */
+	proposeInvalidation: (event) => proposeAction(event),
+	approveInvalidation: (event) => decideAction(event, 'approve'),
+	refuseInvalidation: (event) => decideAction(event, 'refuse'),
 	/** One file for one container: the form path that works without JavaScript. */
 	scan: async (event) => {
 		const actor = requireUser(event, 'technician', 'admin');
