@@ -5,9 +5,15 @@ import { parseRecipe, type FittedRowStep } from './preprocess/recipe';
 import type { ScalingMode } from './preprocess/scaling';
 import type { SpeMethod } from './limits/spe';
 import type { DofEstimator } from './limits/ddsimca';
+import type { PlsdaModel } from './plsda';
+import type { KnnModel } from './knn';
 
-/** 2: the artefact carries `integrity` (SHA-256 of its canonical content without that field). */
-export const SCHEMA_VERSION = 2;
+/**
+ * 2: the artefact carries `integrity` (SHA-256 of its canonical content without that field).
+ * 3: model trees (`splits` below level 1). Version 2 artefacts still load and screen as two-level trees.
+ */
+export const SCHEMA_VERSION = 3;
+export const SUPPORTED_SCHEMA_VERSIONS = [2, 3] as const;
 export const ENGINE_VERSION = '1.0.0';
 
 export interface DistanceSet {
@@ -74,6 +80,28 @@ export interface ModelJson {
 	};
 }
 
+export type SplitMethod = 'one-class' | 'plsda' | 'knn';
+
+/** How a node below level 1 decides among its children (see tree.ts). */
+export interface SplitJson {
+	/** The node being split, from level 1 down, e.g. ["diluted"]. */
+	path: string[];
+	method: SplitMethod;
+	/** The split's own recipe (row steps and column step; a range step picks a window of the artefact axis). */
+	recipe: string;
+	/** [start, end) indices of the artefact axis the recipe works on. */
+	window: [number, number];
+	preprocess: { fitted: FittedRowStep[] };
+	children: string[];
+	/** One-class: one DD-SIMCA model per child. */
+	models: Record<string, ModelJson>;
+	/** Discriminant: the classifier, trained on the node's spectra after the recipe and its column scaling. */
+	classifier: PlsdaModel | KnnModel | null;
+	/** Discriminant: column scaling (training mean, scale) applied before the classifier. */
+	scaling: { mode: ScalingMode; mean: number[]; scale: number[] } | null;
+	classSpectra: Record<string, { n: number; mean: number[]; sd: number[] }>;
+}
+
 export interface ModelArtefact {
 	schemaVersion: number;
 	engineVersion: string;
@@ -90,6 +118,8 @@ export interface ModelArtefact {
 	classSpectra: Record<string, { n: number; mean: number[]; sd: number[] }>;
 	/** SHA-256 (hex) of the RFC 8785 canonical JSON of everything else; set by buildModel, checked on every load. */
 	integrity?: string;
+	/** schemaVersion 3: splits below level 1, parents before children (absent before). */
+	splits?: SplitJson[];
 }
 
 /** Canonical JSON (RFC 8785 key order and number form): the same artefact always gives the same bytes. */
@@ -150,7 +180,8 @@ export function validateArtefact(raw: unknown): ModelArtefact {
 	if (!raw || typeof raw !== 'object' || Array.isArray(raw)) return fail('must be a JSON object');
 	const o = raw as Record<string, unknown>;
 	if (o.schemaVersion === 1) fail('schemaVersion 1 was built before artefacts carried an integrity field and cannot be verified: rebuild the model');
-	if (o.schemaVersion !== SCHEMA_VERSION) fail(`schemaVersion ${String(o.schemaVersion)} is not supported (this engine reads ${SCHEMA_VERSION})`);
+	if (!(SUPPORTED_SCHEMA_VERSIONS as readonly unknown[]).includes(o.schemaVersion))
+		fail(`schemaVersion ${String(o.schemaVersion)} is not supported (this engine reads ${SUPPORTED_SCHEMA_VERSIONS.join(' and ')})`);
 	const axis = o.axis as Record<string, unknown> | undefined;
 	if (!axis || typeof axis !== 'object') fail('axis is missing');
 	if (!isAxisUnit(axis!.unit)) fail('axis.unit must be nm, cm-1 or um');
@@ -173,8 +204,60 @@ export function validateArtefact(raw: unknown): ModelArtefact {
 	if (o.genuine !== null && !(o.classes as string[]).includes(o.genuine as string)) fail(`genuine class "${String(o.genuine)}" is not among the classes`);
 	if ((o.classes as string[]).length > 0 && o.genuine === null) fail('a class model set needs a genuine class');
 	if (typeof o.meta !== 'object' || o.meta === null) fail('meta must be an object');
+	if (o.schemaVersion === 2 && o.splits !== undefined) fail('splits need schemaVersion 3');
+	if (o.splits !== undefined) checkSplits(o.splits, o.classes as string[], p);
 	// after the shape (so a broken file names what is broken): the content hash, then every derivable quantity
 	verifyIntegrity(o);
 	checkDerived(raw as ModelArtefact);
 	return raw as ModelArtefact;
+}
+
+/**
+ * Tree rules: every split refines a node that exists (a level-1 class or a child of an earlier split);
+ * a node is split once; a discriminant split sits only on a node that a one-class model accepted
+ * (level-1 nodes always are), because a closed-set classifier cannot say "none of these".
+ */
+function checkSplits(raw: unknown, classes: string[], p: number): void {
+	if (!Array.isArray(raw)) fail('splits must be an array');
+	const methodOf = new Map<string, string>();
+	const childrenOf = new Map<string, string[]>([['', classes]]);
+	(raw as unknown[]).forEach((sRaw, i) => {
+		const where = `splits[${i}]`;
+		if (!sRaw || typeof sRaw !== 'object') fail(`${where} must be an object`);
+		const s = sRaw as Record<string, unknown>;
+		if (!Array.isArray(s.path) || s.path.length === 0 || s.path.some((x) => typeof x !== 'string' || x === '')) fail(`${where}.path must be a non-empty list of names`);
+		const path = s.path as string[];
+		const key = path.join('/');
+		const parentKey = path.slice(0, -1).join('/');
+		if (!childrenOf.get(parentKey)?.includes(path[path.length - 1])) fail(`${where}: node "${key}" is not a child of an earlier node`);
+		if (methodOf.has(key)) fail(`${where}: node "${key}" is split twice`);
+		if (s.method !== 'one-class' && s.method !== 'plsda' && s.method !== 'knn') fail(`${where}.method must be one-class, plsda or knn`);
+		if (s.method !== 'one-class' && path.length > 1 && methodOf.get(parentKey) !== 'one-class')
+			fail(`${where}: a discriminant split needs a node accepted by a one-class model, but "${key}" is chosen by a ${methodOf.get(parentKey)} split`);
+		methodOf.set(key, s.method as string);
+		if (typeof s.recipe !== 'string') fail(`${where}.recipe must be a string`);
+		const w = numArray(s.window, `${where}.window`, 2);
+		if (!(Number.isInteger(w[0]) && Number.isInteger(w[1]) && w[0] >= 0 && w[1] <= p && w[1] - w[0] >= 2)) fail(`${where}.window must be [start, end) within the axis, at least 2 points`);
+		const pw = w[1] - w[0];
+		if (!Array.isArray(s.children) || s.children.length === 0 || s.children.some((c) => typeof c !== 'string' || c === '')) fail(`${where}.children must be a non-empty list of names`);
+		const children = s.children as string[];
+		if (new Set(children).size !== children.length) fail(`${where}.children has duplicates`);
+		childrenOf.set(key, children);
+		const pre = s.preprocess as { fitted?: unknown } | undefined;
+		if (!pre || !Array.isArray(pre.fitted)) fail(`${where}.preprocess.fitted must be an array`);
+		if (s.method === 'one-class') {
+			const models = (s.models ?? {}) as Record<string, unknown>;
+			for (const c of children) checkModel(models[c], `${where}.models["${c}"]`, pw);
+		} else {
+			const cl = s.classifier as Record<string, unknown> | null;
+			if (!cl || cl.method !== s.method) fail(`${where}.classifier must be a ${String(s.method)} model`);
+			if (children.length < 2) fail(`${where}: a discriminant split needs at least two children`);
+			const sc = s.scaling as Record<string, unknown> | null;
+			if (!sc) fail(`${where}.scaling is missing`);
+			numArray(sc!.mean, `${where}.scaling.mean`, pw);
+			numArray(sc!.scale, `${where}.scaling.scale`, pw);
+			const cls = cl!.classes;
+			if (!Array.isArray(cls) || [...cls].sort().join('\u0000') !== [...children].sort().join('\u0000')) fail(`${where}.classifier classes must be the children`);
+		}
+	});
 }

@@ -11,6 +11,8 @@ import { cCritical, cOutlier, ddStatistic, estimateDof, type DofEstimator } from
 import { sealArtefact } from './integrity';
 import { alphaRefusal } from './alpha-bounds';
 import { ENGINE_VERSION, SCHEMA_VERSION, type DistanceSet, type ModelArtefact, type ModelJson } from './artefact';
+import { labelPath } from './tree';
+import { buildSplits, type NodeOptions } from './tree-build';
 
 export interface SpectrumInput {
 	id: string;
@@ -25,7 +27,7 @@ export interface TrainingSpectrum extends SpectrumInput {
 }
 
 export interface BuildProgress {
-	stage: 'preprocess' | 'family' | 'class' | 'limits' | 'done';
+	stage: 'preprocess' | 'family' | 'class' | 'node' | 'limits' | 'done';
 	model: string;
 	fold?: number;
 	folds?: number;
@@ -48,6 +50,8 @@ export interface BuildOptions {
 	/** DD-SIMCA degrees-of-freedom estimator; default 'moments'. */
 	estimator?: DofEstimator;
 	genuine?: string;
+	/** Per-node options of a model tree, keyed by node path ("diluted", "genuine"); see tree-build.ts. */
+	nodes?: Record<string, NodeOptions>;
 	axis?: { from: number; to: number; unit: AxisUnit; step?: number };
 	meta?: Record<string, string>;
 	onProgress?: (p: BuildProgress) => void;
@@ -75,12 +79,14 @@ interface ModelConfig {
 	estimator: DofEstimator;
 	mode: ScalingMode;
 	progress: (fold: number, folds: number) => void;
+	/** How errors name the model (default: family model / class "name"). */
+	label?: string;
 }
 
 function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | undefined)[] | null, cfg: ModelConfig): ModelJson {
 	const n = rows.length;
 	const p = rows[0].length;
-	const label = cfg.kind === 'family' ? 'family model' : `class "${cfg.name}"`;
+	const label = cfg.label ?? (cfg.kind === 'family' ? 'family model' : `class "${cfg.name}"`);
 	const fixed = cfg.components === 'auto' ? null : cfg.components;
 	if (fixed !== null && !(Number.isInteger(fixed) && fixed >= 1))
 		throw new AnalysisError('bad-components', `components must be a positive integer or "auto", got ${String(cfg.components)}`);
@@ -243,7 +249,10 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 	const maxGap = maxGapOf(steps);
 	const report = (p: Omit<BuildProgress, 'done' | 'total'>, done: number, total: number) => onProgress?.({ ...p, done, total });
 
-	const labels = training.map((s) => (s.className === null || s.className === undefined || s.className === '' ? null : String(s.className)));
+	const fullLabels = training.map((s) => (s.className === null || s.className === undefined || s.className === '' ? null : String(s.className)));
+	// a label path "diluted/starch" puts the spectrum in level-1 class "diluted" and its child "starch"
+	const paths = fullLabels.map((l) => (l === null ? null : labelPath(l)));
+	const labels = paths.map((p) => (p === null ? null : p[0]));
 	const unlabelled = labels.filter((l) => l === null).length;
 	if (unlabelled > 0 && unlabelled < labels.length)
 		throw new AnalysisError('missing-class', `${unlabelled} training spectra have no class (first: "${ids[labels.indexOf(null)]}"); label every spectrum or none`);
@@ -265,7 +274,8 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 		if (count < need) throw new AnalysisError('too-few', `class "${c}" has ${count} training spectra, needs at least ${need} (max(10, A + 3))`);
 	}
 
-	const total = 2 + 1 + classes.length;
+	const deep = paths.some((p) => p !== null && p.length > 1);
+	const total = 2 + 1 + classes.length + (deep ? 1 : 0);
 	report({ stage: 'preprocess', model: '', message: `resampling ${training.length} spectra onto ${axis.points} points` }, 0, total);
 	const resampled = training.map((s, i) => {
 		const r = resampleOnto(s, axis, { maxGap });
@@ -319,6 +329,30 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 		for (let j = 0; j < p; j++) sd[j] = Math.sqrt(sd[j] / (idx.length - 1));
 		classSpectra[c] = { n: idx.length, mean: Array.from(mean), sd: Array.from(sd) };
 	});
+	const splits = deep
+		? buildSplits({
+				paths: paths as string[][],
+				resampled,
+				axisX: axis.x,
+				ids,
+				groups: hasGroups ? groups : null,
+				genuine,
+				nodes: options.nodes ?? {},
+				rootRecipe: formatRecipe(steps.filter((s) => s.op !== 'range' && s.op !== 'gaps')),
+				components,
+				folds,
+				onNode: (key) => report({ stage: 'node', model: key, message: `node "${key}"` }, total - 1, total),
+				fit: (rows, nodeIds, nodeGroups, cfg) =>
+					fitModel(rows, nodeIds, nodeGroups, {
+						...base,
+						...cfg,
+						alpha,
+						progress: (fold, nf) => report({ stage: 'node', model: cfg.name, fold, folds: nf, message: `${cfg.label}, fold ${fold}/${nf}` }, total - 1, total)
+					})
+			})
+		: [];
+	if (!deep && options.nodes && Object.keys(options.nodes).length > 0)
+		throw new AnalysisError('bad-node', `node options (${Object.keys(options.nodes).join(', ')}) need label paths such as "diluted/starch"`);
 	report({ stage: 'done', model: '', message: 'model built' }, total, total);
 	const sortedMeta: Record<string, string> = {};
 	for (const k of Object.keys(meta).sort()) sortedMeta[k] = String(meta[k]);
@@ -334,6 +368,7 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 		options: { alpha, familyAlpha, gamma, limits, folds, speLimit, estimator },
 		family,
 		models,
-		classSpectra
+		classSpectra,
+		splits
 	});
 }

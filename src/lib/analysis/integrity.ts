@@ -121,4 +121,8 @@ function checkModelDerived(m: ModelJson, where: string, kind: 'class' | 'family'
 export function checkDerived(a: ModelArtefact): void {
 	checkModelDerived(a.family, 'family', 'family');
 	for (const c of a.classes) checkModelDerived(a.models[c], `models["${c}"]`, 'class');
+	// model trees: every one-class model of every split is checked like the level-1 ones
+	(a.splits ?? []).forEach((s, i) => {
+		if (s.method === 'one-class') for (const c of s.children) checkModelDerived(s.models[c], `splits[${i}].models["${c}"]`, 'class');
+	});
 }

@@ -5,6 +5,8 @@ import { makeProjectionModel, project, type ModelStats, type ProjectionModel } f
 import { decide, type Verdict } from './classify';
 import { validateArtefact, type ModelArtefact, type ModelJson } from './artefact';
 import type { SpectrumInput } from './build';
+import { prepareSplits, walkSplits, type PreparedSplit } from './tree-screen';
+import type { LevelEvidence } from './tree';
 
 export interface ScreenResult {
 	id: string;
@@ -14,6 +16,10 @@ export interface ScreenResult {
 	reason: string | null;
 	family: ModelStats | null;
 	classes: Record<string, ModelStats>;
+	/** Names from level 1 down, e.g. ["diluted", "starch"]; ends early where a level answered "none of these". */
+	path: string[];
+	/** Evidence of each level walked: level 1 (the classes) first. */
+	levels: LevelEvidence[];
 }
 
 /** An artefact turned into typed arrays and closures once, so screening a spectrum does no parsing. */
@@ -24,11 +30,13 @@ export interface PreparedArtefact {
 	pipeline: RowPipeline;
 	family: ProjectionModel;
 	classes: ProjectionModel[];
+	/** Splits below level 1, by node path. */
+	splits: Map<string, PreparedSplit>;
 }
 
 const cache = new WeakMap<ModelArtefact, PreparedArtefact>();
 
-function toProjection(m: ModelJson): ProjectionModel {
+export function toProjection(m: ModelJson): ProjectionModel {
 	const A = m.components;
 	const p = m.mean.length;
 	const loadings = new Float64Array(A * p);
@@ -66,14 +74,15 @@ export function prepareArtefact(artefact: ModelArtefact): PreparedArtefact {
 		maxGap: maxGapOf(steps),
 		pipeline: rowPipeline(rowSteps(steps), artefact.preprocess.fitted, axis.x),
 		family: toProjection(artefact.family),
-		classes: artefact.classes.map((c) => toProjection(artefact.models[c]))
+		classes: artefact.classes.map((c) => toProjection(artefact.models[c])),
+		splits: prepareSplits(artefact, axis, toProjection)
 	};
 	cache.set(artefact, prepared);
 	return prepared;
 }
 
 function unusable(id: string, reason: string): ScreenResult {
-	return { id, verdict: 'unusable', profile: null, ambiguous: false, reason, family: null, classes: {} };
+	return { id, verdict: 'unusable', profile: null, ambiguous: false, reason, family: null, classes: {}, path: [], levels: [] };
 }
 
 /**
@@ -101,5 +110,22 @@ export function screen(artefact: ModelArtefact | PreparedArtefact, spectrum: Spe
 		family,
 		prep.classes.map((m) => ({ name: m.name, kind: m.kind as 'genuine' | 'suspect', stats: classes[m.name] }))
 	);
-	return { id, ...d, family, classes };
+	const a = prep.artefact;
+	// level 1: the unchanged decision table; its chosen class starts the walk down the tree
+	const top = d.verdict === 'genuine' ? a.genuine : d.verdict === 'suspect' ? d.profile : null;
+	const level1: LevelEvidence = {
+		node: [],
+		method: 'one-class',
+		children: [...a.classes],
+		stats: { ...classes },
+		accepted: a.classes.filter((c) => classes[c].accepted),
+		classifier: null,
+		chosen: top,
+		ambiguous: d.ambiguous,
+		reason: d.reason
+	};
+	const levels = a.classes.length > 0 ? [level1] : [];
+	const path = top === null ? [] : [top];
+	if (top !== null) walkSplits(prep.splits, r.values, path, levels, options);
+	return { id, ...d, family, classes, path, levels };
 }

@@ -8,3 +8,5 @@ export { createRng, mulberry32 } from './prng';
 export type { Rng } from './prng';
 export { addBands, NIR, RAMAN } from './bands';
 export type { Band } from './bands';
+export { treeLibrary, TREE_CLASSES } from './tree-library';
+export type { TreeLibraryRow } from './tree-library';

@@ -119,7 +119,7 @@ function uniformAxis(from: number, to: number, step: number): Float64Array {
 }
 
 // What a sample is made of; each kind maps to a band recipe below.
-type Kind = 'lactose' | 'lactose-anhydrous' | 'lactose-starch' | 'lactose-talc' | 'mcc' | 'powdered-cellulose' | 'citric-anhydrous' | 'citric-monohydrate';
+export type Kind = 'lactose' | 'lactose-site-b' | 'lactose-anhydrous' | 'lactose-starch' | 'lactose-talc' | 'mcc' | 'powdered-cellulose' | 'citric-anhydrous' | 'citric-monohydrate';
 
 /** Physical state shared by a supplier lot (particle size, moisture, ...), varied a little per sample. */
 interface State {
@@ -132,7 +132,7 @@ interface State {
 	width: number;
 }
 
-function lotState(rng: Rng): State {
+export function lotState(rng: Rng): State {
 	return {
 		mult: rng.gauss(1, 0.06),
 		offset: rng.gauss(0.25, 0.03),
@@ -144,7 +144,7 @@ function lotState(rng: Rng): State {
 	};
 }
 
-function sampleState(lot: State, rng: Rng): State {
+export function sampleState(lot: State, rng: Rng): State {
 	return {
 		mult: lot.mult * rng.gauss(1, 0.015),
 		offset: lot.offset + rng.gauss(0, 0.008),
@@ -173,6 +173,12 @@ function nirPure(kind: Kind, axis: Float64Array, s: State, shift: number): Float
 	switch (kind) {
 		case 'lactose':
 			lactose(1);
+			break;
+		case 'lactose-site-b':
+			// The second approved site's process: slightly less crystal water and a weak amorphous shoulder.
+			lactose(1);
+			addBands(out, axis, NIR.crystalWater, -0.12 * s.crystal, shift, s.width);
+			addBands(out, axis, [{ center: 2268, fwhm: 60, height: 0.02 }], 1, shift, s.width);
 			break;
 		case 'lactose-anhydrous':
 			// A substituted anhydrous grade: crystal water nearly gone, drier, a small β-lactose band.
@@ -203,7 +209,7 @@ function nirPure(kind: Kind, axis: Float64Array, s: State, shift: number): Float
 	return out;
 }
 
-function spectrumOf(kind: Kind, axis: Float64Array, s: State, instrument: string, rng: Rng, quantum: number): Float64Array {
+export function spectrumOf(kind: Kind, axis: Float64Array, s: State, instrument: string, rng: Rng, quantum: number): Float64Array {
 	const eff = INSTRUMENT_EFFECT[instrument];
 	const n = axis.length;
 	const lo = axis[0];

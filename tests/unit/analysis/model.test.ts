@@ -16,7 +16,8 @@ describe('family-only model on gasoline NIR (Kalivas 1997)', () => {
 		a = buildModel(gasolineTraining(), { meta: { material: 'gasoline' } });
 	});
 	test('artefact holds what screening and evidence plots need', () => {
-		expect(a.schemaVersion).toBe(2);
+		expect(a.schemaVersion).toBe(3);
+		expect(a.splits).toEqual([]);
 		expect(a.classes).toEqual([]);
 		expect(a.genuine).toBeNull();
 		expect(a.axis).toMatchObject({ unit: 'nm', from: 900, to: 1700, points: 401, step: 2 });
