@@ -13,9 +13,11 @@ import {
 	treeOf,
 	walkTree,
 	type ModelArtefact,
+	type PreparedArtefact,
 	type ScreenResult
 } from '../../../src/lib/analysis';
 import { walkSplits } from '../../../src/lib/analysis/tree-screen';
+import { sealArtefact } from '../../../src/lib/analysis/integrity';
 import { decideOneClassLevel } from '../../../src/lib/analysis/tree';
 import { treeLibrary, type TreeLibraryRow } from '../../../src/lib/demo';
 import type { ModelStats } from '../../../src/lib/analysis/projection';
@@ -26,7 +28,13 @@ const training = lib.filter((r) => r.role === 'training');
 const tests = lib.filter((r) => r.role === 'test');
 const mcc = lib.filter((r) => r.role === 'challenge');
 const clone = (a: ModelArtefact): ModelArtefact => JSON.parse(serializeArtefact(a));
-const named = (a: ModelArtefact, r: TreeLibraryRow): ScreenResult => screen(a, r);
+const named = (a: ModelArtefact | PreparedArtefact, r: TreeLibraryRow): ScreenResult => screen(a, r);
+/** A prepared copy with acceptance limits moved in memory (a stored artefact cannot be edited: integrity, §12.1). */
+const forced = (a: ModelArtefact, change: (p: PreparedArtefact) => void): PreparedArtefact => {
+	const p = prepareArtefact(clone(a));
+	change(p);
+	return p;
+};
 const label = (r: ScreenResult) => describePath(r.verdict, r.path, r.levels);
 
 let tree: ModelArtefact;
@@ -94,8 +102,7 @@ describe('three-level one-class tree', () => {
 	});
 
 	test('no level-1 model accepting gives unknown (unchanged table), with no deeper level walked', () => {
-		const a = clone(tree);
-		for (const c of a.classes) a.models[c].cCrit = 1e-9;
+		const a = forced(tree, (p) => p.classes.forEach((m) => (m.cCrit = 1e-9)));
 		const r = named(a, tests.find((x) => x.className === 'diluted/starch')!);
 		expect(r.verdict).toBe('unknown');
 		expect(r.path).toEqual([]);
@@ -103,8 +110,7 @@ describe('three-level one-class tree', () => {
 	});
 
 	test('"none of these" below a node: the path ends there and the name says unknown sub-profile / sub-level', () => {
-		const a = clone(tree);
-		for (const s of a.splits!) for (const m of Object.values(s.models)) m.cCrit = 1e-9;
+		const a = forced(tree, (p) => p.splits.forEach((s) => s.models.forEach((m) => (m.cCrit = 1e-9))));
 		const d = named(a, tests.find((x) => x.className === 'diluted/talc')!);
 		expect(d.verdict).toBe('suspect');
 		expect(d.path).toEqual(['diluted']);
@@ -118,8 +124,7 @@ describe('three-level one-class tree', () => {
 	});
 
 	test('several children accepting: the smallest c/c_crit is chosen and the level is flagged ambiguous', () => {
-		const a = clone(tree);
-		for (const m of Object.values(a.splits![1].models)) m.cCrit = 1e12;
+		const a = forced(tree, (p) => p.splits.get('diluted')!.models.forEach((m) => (m.cCrit = 1e12)));
 		const r = named(a, tests.find((x) => x.className === 'diluted/talc')!);
 		const lv = r.levels[1];
 		expect(lv.accepted.sort()).toEqual(['starch', 'talc']);
@@ -127,6 +132,14 @@ describe('three-level one-class tree', () => {
 		const ratio = (k: string) => lv.stats[k].c / lv.stats[k].cCrit;
 		expect(lv.chosen).toBe(ratio('starch') < ratio('talc') ? 'starch' : 'talc');
 		expect(r.ambiguous).toBe(false); // the top-level flag belongs to the level-1 table
+	});
+
+	test('a split model edited and re-sealed is refused on load, like a level-1 model (methods §12.1)', () => {
+		const bad = clone(tree);
+		bad.splits![1].models.talc.cCrit *= 10;
+		const { integrity: _old, ...content } = bad;
+		expect(() => parseArtefact(JSON.stringify(sealArtefact(content)))).toThrow(/splits\[1\]\.models\["talc"\]\.cCrit is .* recomputes to/);
+		expect(() => parseArtefact(JSON.stringify(sealArtefact({ ...content, schemaVersion: 2 })))).toThrow(/splits need schemaVersion 3/);
 	});
 
 	test('the artefact round-trips through JSON to identical results', () => {
