@@ -65,6 +65,16 @@ export interface ModelJson {
 	/** ekf PRESS for A = 0..Amax. */
 	cvPress: number[];
 	suggestedComponents: number;
+	/** ekf PRESS with one variable left out at a time (optimistic on dense spectra; for comparison). */
+	cvPressElementwise?: number[];
+	/** Contiguous variable blocks left out in `cvPress`. */
+	variableBlocks?: number;
+	/** Smallest A within 5 % of the minimum PRESS (the parsimony rule offered beside the 1 % rule). */
+	parsimoniousComponents?: number;
+	/** Guards that a chemometrician should read: A at the cap, N_h or N_q below 3, … */
+	warnings?: string[];
+	/** Observed quantiles of N·x/x₀ of the limit-setting distances against the fitted χ²(N) quantiles. */
+	distanceFit?: { p: number[]; h: { observed: number[]; fitted: number[] }; v: { observed: number[]; fitted: number[] } };
 	folds: number;
 	foldsGrouped: boolean;
 	/** Share of training objects whose cross-validated c exceeds c_crit (compare with alpha). */

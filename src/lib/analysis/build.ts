@@ -9,6 +9,7 @@ import { t2LimitNew, t2LimitTraining } from './limits/hotelling';
 import { speBox, speJacksonMudholkar, speMoments, SPE_METHODS, type SpeMethod } from './limits/spe';
 import { cCritical, cOutlier, ddStatistic, estimateDof, type DofEstimator } from './limits/ddsimca';
 import { sealArtefact } from './integrity';
+import { chi2Inv, sampleQuantile } from './quantiles';
 import { alphaRefusal } from './alpha-bounds';
 import { ENGINE_VERSION, SCHEMA_VERSION, type DistanceSet, type ModelArtefact, type ModelJson } from './artefact';
 import { labelPath } from './tree';
@@ -47,6 +48,8 @@ export interface BuildOptions {
 	limits?: 'cv' | 'training';
 	folds?: number;
 	speLimit?: SpeMethod;
+	/** Contiguous variable blocks left out in the ekf PRESS (default 100; p gives one variable at a time). */
+	variableBlocks?: number;
 	/** DD-SIMCA degrees-of-freedom estimator; default 'moments'. */
 	estimator?: DofEstimator;
 	genuine?: string;
@@ -55,6 +58,18 @@ export interface BuildOptions {
 	axis?: { from: number; to: number; unit: AxisUnit; step?: number };
 	meta?: Record<string, string>;
 	onProgress?: (p: BuildProgress) => void;
+}
+
+/** The parsimony rule offered beside the 1 % rule: smallest A within 5 % of the minimum PRESS (docs/methods.md §8). */
+export const PARSIMONY_TOLERANCE = 0.05;
+/** Below this many degrees of freedom (N_h or N_q) the version page and report warn (issue 12 §4). */
+export const LOW_DOF = 3;
+const QUANTILE_PROBS = [0.5, 0.75, 0.9, 0.95, 0.99];
+
+/** Observed quantiles of x/x₀·N (R type 7) against the fitted χ²(N) quantiles at the same probabilities. */
+function distanceQuantiles(x: number[], x0: number, N: number): { observed: number[]; fitted: number[] } {
+	const scaled = x.map((v) => (x0 > 0 ? (N * v) / x0 : 0));
+	return { observed: QUANTILE_PROBS.map((q) => sampleQuantile(scaled, q)), fitted: QUANTILE_PROBS.map((q) => chi2Inv(q, N)) };
 }
 
 /** Training-size rule: a model with A components needs at least max(10, A + 3) objects. */
@@ -78,6 +93,7 @@ interface ModelConfig {
 	speLimit: SpeMethod;
 	estimator: DofEstimator;
 	mode: ScalingMode;
+	variableBlocks?: number;
 	progress: (fold: number, folds: number) => void;
 	/** How errors name the model (default: family model / class "name"). */
 	label?: string;
@@ -109,9 +125,15 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 	const Zm = { data: Z, rows: n, cols: p };
 	const gram = n <= p ? gramRows(Zm) : null;
 	const full = pca(Zm, Amax, { gram: gram ?? undefined });
-	const cv = crossValidate(rows, Zm, gram, cfg.mode, layout, Amax, cfg.progress);
+	const cv = crossValidate(rows, Zm, gram, cfg.mode, layout, Amax, cfg.progress, cfg.variableBlocks);
 	const suggested = suggestComponents(cv.press);
+	const parsimonious = suggestComponents(cv.press, PARSIMONY_TOLERANCE);
 	const A = fixed ?? suggested;
+	const warnings: string[] = [];
+	if (fixed === null && suggested === Amax)
+		warnings.push(
+			`${label}: the suggested component count equals the cap (${Amax}): PRESS still falls there, so the count may be fitting noise; the parsimony rule (smallest A within ${PARSIMONY_TOLERANCE * 100} % of the minimum PRESS) gives ${parsimonious}; consider fixing A`
+		);
 	const W = Amax + 1;
 
 	const fitted: DistanceSet = { h: [], v: [], c: [] };
@@ -140,6 +162,14 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 	const vp = estimateDof(basis.v, cfg.estimator);
 	const par = { h0: hp.x0, v0: vp.x0, nh: hp.dof, nq: vp.dof };
 	const dof = par.nh + par.nq;
+	for (const [name, N] of [['N_h', par.nh], ['N_q', par.nq]] as const)
+		if (N < LOW_DOF)
+			warnings.push(`${label}: ${name} = ${N} (below ${LOW_DOF}): a heavy-tailed distance distribution widens the acceptance area; compare the observed distance quantiles with the fitted χ²`);
+	const distanceFit = {
+		p: QUANTILE_PROBS,
+		h: distanceQuantiles(basis.h, par.h0, par.nh),
+		v: distanceQuantiles(basis.v, par.v0, par.nq)
+	};
 	const cCrit = cCritical(dof, cfg.alpha);
 	const cOut = cOutlier(dof, cfg.gamma, n);
 	let cvRejected = 0;
@@ -196,7 +226,12 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 			theta: [th.theta1, th.theta2, th.theta3]
 		},
 		cvPress: Array.from(cv.press),
+		cvPressElementwise: Array.from(cv.pressElementwise),
+		variableBlocks: cv.variableBlocks,
 		suggestedComponents: suggested,
+		parsimoniousComponents: parsimonious,
+		warnings,
+		distanceFit,
 		folds: layout.K,
 		foldsGrouped: layout.grouped,
 		cvFalseRejectRate: cvRejected / n,
@@ -291,7 +326,7 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 	const mode = scalingMode(steps);
 	const groups = training.map((s) => s.group ?? null);
 	const hasGroups = groups.some((g) => g !== null && g !== '');
-	const base = { maxComponents, gamma, limits, folds, speLimit, estimator, mode };
+	const base = { maxComponents, gamma, limits, folds, speLimit, estimator, mode, variableBlocks: options.variableBlocks };
 
 	report({ stage: 'family', model: 'family', message: 'family model' }, 1, total);
 	const family = fitModel(rowFit.rows, ids, hasGroups ? groups : null, {

@@ -2,6 +2,7 @@ import { AnalysisError } from './errors';
 import { pca, type Mat } from './pca';
 import { fitScaling, type ScalingMode } from './preprocess/scaling';
 import { cumulativeLeverage, ekfAccumulateWith, ekfMargins } from './ekf';
+import { blockedPressAccumulate, blockFactors, DEFAULT_VARIABLE_BLOCKS, variableBlocks } from './ekf-blocked';
 
 export interface FoldLayout {
 	K: number;
@@ -36,8 +37,12 @@ export function foldLayout(n: number, K: number, groups?: (string | null | undef
 
 export interface CvResult {
 	Amax: number;
-	/** PRESS(A), A = 0..Amax (A = 0: deviations from the fold mean). */
+	/** PRESS(A), A = 0..Amax (A = 0: deviations from the fold mean), variables left out in contiguous blocks. */
 	press: Float64Array;
+	/** The same with one variable left out at a time (for comparison: optimistic on densely sampled spectra). */
+	pressElementwise: Float64Array;
+	/** Number of contiguous variable blocks used for `press`. */
+	variableBlocks: number;
 	/** Cross-validated h and v of each object for A = 0..Amax, row-major n×(Amax+1). */
 	h: Float64Array;
 	v: Float64Array;
@@ -63,12 +68,15 @@ export function crossValidate(
 	mode: ScalingMode,
 	layout: FoldLayout,
 	Amax: number,
-	onFold?: (fold: number, folds: number) => void
+	onFold?: (fold: number, folds: number) => void,
+	blockCount = DEFAULT_VARIABLE_BLOCKS
 ): CvResult {
 	const n = Z.rows;
 	const p = Z.cols;
 	const W = Amax + 1;
 	const press = new Float64Array(W);
+	const pressElementwise = new Float64Array(W);
+	const blocks = variableBlocks(p, blockCount);
 	const h = new Float64Array(n * W);
 	const v = new Float64Array(n * W);
 	for (let f = 0; f < layout.K; f++) {
@@ -124,6 +132,7 @@ export function crossValidate(
 		// fold models feed PRESS and CV distances only, which need far fewer digits than the stored model
 		const fit = pca({ data: Zf, rows: m, cols: p }, Amax, { gram: foldGram, tol: 1e-8 });
 		const margin = ekfMargins(cumulativeLeverage(fit.loadings, Amax, p), Amax, p);
+		const factors = blockFactors(fit.loadings, Amax, p, blocks);
 		const z = new Float64Array(p);
 		const e = new Float64Array(p);
 		const t = new Float64Array(Amax);
@@ -135,11 +144,14 @@ export function crossValidate(
 				const base = i * p;
 				for (let j = 0; j < p; j++) z[j] = Z.data[base + j] - shift[j];
 			}
-			ekfAccumulateWith(z, fit.loadings, fit.eigenvalues, Amax, p, margin, press, v.subarray(i * W, (i + 1) * W), h.subarray(i * W, (i + 1) * W), e, t);
+			ekfAccumulateWith(z, fit.loadings, fit.eigenvalues, Amax, p, margin, pressElementwise, v.subarray(i * W, (i + 1) * W), h.subarray(i * W, (i + 1) * W), e, t);
+			// t now holds the row's scores on the fold model
+			blockedPressAccumulate(z, fit.loadings, t, p, factors, press);
 		}
 		onFold?.(f + 1, layout.K);
 	}
-	return { Amax, press, h, v };
+	press[0] = pressElementwise[0];
+	return { Amax, press, pressElementwise, variableBlocks: blocks.start.length, h, v };
 }
 
 /**

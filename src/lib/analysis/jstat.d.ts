@@ -9,6 +9,7 @@ declare module 'jstat' {
 		chisquare: ContinuousDistribution;
 		normal: ContinuousDistribution;
 		beta: ContinuousDistribution;
+		binomial: { cdf(k: number, n: number, p: number): number; pdf(k: number, n: number, p: number): number };
 		percentile(values: number[], k: number, exclusive?: boolean): number;
 	};
 	export default jStat;

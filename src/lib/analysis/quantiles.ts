@@ -35,6 +35,18 @@ export function betaInv(p: number, a: number, b: number): number {
 	return jStat.beta.inv(p, a, b);
 }
 
+/**
+ * Binomial quantile: the smallest k with P(X ≤ k) ≥ p for X ~ Binomial(n, prob), from jstat's binomial CDF
+ * (the definition of a discrete quantile; scipy.stats.binom.ppf gives the same).
+ */
+export function binomialInv(p: number, n: number, prob: number): number {
+	checkP(p);
+	if (!(Number.isInteger(n) && n >= 0)) throw new AnalysisError('bad-argument', `n must be a whole number ≥ 0, got ${n}`);
+	if (!(prob >= 0 && prob <= 1)) throw new AnalysisError('bad-probability', `probability must be in [0, 1], got ${prob}`);
+	for (let k = 0; k < n; k++) if (jStat.binomial.cdf(k, n, prob) >= p) return k;
+	return n;
+}
+
 /** Sample quantile with linear interpolation between order statistics (R type 7), via jstat. */
 export function sampleQuantile(values: ArrayLike<number>, p: number): number {
 	return jStat.percentile(Array.from(values), p);

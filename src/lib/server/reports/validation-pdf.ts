@@ -75,6 +75,12 @@ export async function validationPdf(v: PublicVersion): Promise<Buffer> {
 		(v.figures?.models ?? []).map((m) => [m.name === 'family' ? 'family (stage 1)' : `${m.name} (${m.kind})`, String(m.n), `${m.components} (${m.componentsRule}, suggested ${m.suggested})`, m.cCrit.toFixed(2), pct(m.cvFalseRejectRate), pct(m.trainingFalseRejectRate), String(m.alpha)])
 	);
 
+	const warnings = (v.figures?.models ?? []).flatMap((m) => m.warnings ?? []);
+	if (warnings.length) {
+		h('Warnings from the build');
+		for (const w of warnings) p(`- ${w.replace(/χ²/g, 'chi-square').replace(/N_h/g, 'N_h').replace(/N_q/g, 'N_q')}`);
+	}
+
 	h('Cross-validated false-reject rate against alpha');
 	const grid = v.figures?.models[0]?.frrByAlpha.map((f) => f.alpha) ?? [];
 	table(['Model', ...grid.map((a) => `alpha = ${a}`)], (v.figures?.models ?? []).map((m) => [m.name, ...m.frrByAlpha.map((f) => pct(f.cv))]));

@@ -141,6 +141,9 @@ export interface ModelFigure {
 	/** CV false-reject rate at other α, from the cross-validated c of the training objects. */
 	frrByAlpha: { alpha: number; cv: number; training: number }[];
 	explained: number;
+	/** Engine guards: A at the cap, N_h or N_q below 3 (issue 12 §4). */
+	warnings?: string[];
+	parsimonious?: number | null;
 }
 export interface Figures {
 	trainingCount: number;
@@ -620,7 +623,9 @@ function evidence(withData: library.EntrySpectrum[], artefact: ModelArtefact, me
 			cvFalseRejectRate: m.cvFalseRejectRate,
 			trainingFalseRejectRate: m.trainingFalseRejectRate,
 			frrByAlpha: [...new Set([...ALPHA_GRID, m.alpha])].sort((a, b) => a - b).map((a) => ({ alpha: a, cv: frr(m.training.cv.c, a), training: frr(m.training.fitted.c, a) })),
-			explained: m.cumulative[m.components - 1] ?? 0
+			explained: m.cumulative[m.components - 1] ?? 0,
+			warnings: m.warnings ?? [],
+			parsimonious: m.parsimoniousComponents ?? null
 		};
 	};
 	const included = new Set(members.map((m) => String(m.entryId)));

@@ -34,6 +34,10 @@ function modelView(m: ModelJson) {
 		limitsFrom: m.limitsFrom,
 		folds: m.folds,
 		foldsGrouped: m.foldsGrouped,
+		parsimonious: m.parsimoniousComponents ?? null,
+		variableBlocks: m.variableBlocks ?? null,
+		warnings: m.warnings ?? [],
+		distanceFit: m.distanceFit ?? null,
 		training: m.training
 	};
 }
