@@ -1,6 +1,10 @@
 // Result integrity (issue #11) against the real PostgreSQL: a failing container cannot be retested into "genuine";
 // only a QA-approved invalidation (signed, by someone other than the proposer) lets a retest count; the release of a
 // lot with any failing history takes two QA signatures; alerts stay and show the invalidation; unusable scans raise none.
+import { execFileSync } from 'node:child_process';
+import { existsSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { QueryTypes } from 'sequelize';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { sequelize } from '../../src/lib/server/db';
@@ -145,6 +149,27 @@ describe('result policy', () => {
 		expect(second.disposition.state).toBe('effective');
 		expect(second.disposition.signatures.map((s) => s.signerName)).toEqual([qa1.user.name, qa2.user.name]);
 		expect((await lots.get(lot.id)).status).toBe('released');
+
+		// The certificate: each container row names its scans by file name + first 12 hex of SHA-256, and lists the invalidation.
+		const cert = await dispositions.certificate(lot.id);
+		const view = await lots.get(lot.id);
+		const row2 = cert.content.containers.find((c) => c.container === 2)!;
+		expect(row2.verdict).toBe('genuine');
+		expect(row2.scans!.map((x) => [x.fileName, x.sha12])).toEqual(view.containers[1].scans.map((x) => [x.fileName, x.sha256.slice(0, 12)]));
+		expect(row2.scans![0]).toMatchObject({ verdict: 'suspect', counts: false, invalidated: { cause: 'wrong-container', causeLabel: 'wrong container scanned', approvedBy: qa1.user.name, proposedBy: tech.user.name } });
+		expect(row2.scans![1]).toMatchObject({ verdict: 'genuine', counts: true, invalidated: null });
+		expect(row2.scans![0].sha12).toMatch(/^[0-9a-f]{12}$/);
+		expect(cert.content.containers.find((c) => c.container === 1)!.scans).toHaveLength(1);
+		expect(cert.content.disposition.twoPersonReason).toMatch(/non-genuine result, since invalidated/);
+		expect((await dispositions.regenerate(cert.dispositionId)).matchesStored).toBe(true);
+		if (existsSync('/usr/bin/pdftotext')) {
+			const dir = mkdtempSync(join(tmpdir(), 'lotgate-ri-'));
+			writeFileSync(join(dir, 'c.pdf'), cert.pdf);
+			const text = execFileSync('/usr/bin/pdftotext', [join(dir, 'c.pdf'), '-'], { encoding: 'utf8' }).replace(/\s+/g, ' ');
+			expect(text).toContain('Invalidated scans');
+			expect(text).toContain(row2.scans![0].sha12);
+			expect(text).toContain(`approved by ${qa1.user.name}`);
+		}
 		// A lot that never failed still releases with one signature.
 		const clean = await receive(1);
 		await scans.add(tech.actor, clean.id, { ...file('genuine', 95100), container: 1 });

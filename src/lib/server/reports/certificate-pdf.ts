@@ -88,6 +88,19 @@ export interface CertificateContainer {
 	family: CertificateStats | null;
 	/** The genuine class model's statistics (stage 2). */
 	genuine: CertificateStats | null;
+	/** Every scan of the container by file name and the first 12 hex digits of its SHA-256 (absent on older certificates). */
+	scans?: CertificateScan[];
+	replicates?: { done: number; required: number };
+}
+
+export interface CertificateScan {
+	scanId: number;
+	fileName: string;
+	sha12: string;
+	verdict: string;
+	profile: string | null;
+	counts: boolean;
+	invalidated: { cause: string; causeLabel: string; description: string; proposedBy: string; approvedBy: string; at: string; atText: string } | null;
 }
 
 export interface CertificateSignature {
@@ -137,6 +150,8 @@ export interface CertificateContent {
 		recordHash: string;
 		supersedes: { id: number; decision: string; effectiveAtText: string | null } | null;
 		twoPersonRule: boolean;
+		/** Why two signatures were needed (absent on older certificates: failed identity). */
+		twoPersonReason?: string;
 	};
 	signatures: CertificateSignature[];
 	caution: string;
@@ -157,6 +172,11 @@ const latin = (s: string) =>
 
 const num = (x: number | null | undefined, digits = 3) => (x == null || !Number.isFinite(x) ? '-' : Math.abs(x) >= 1000 || (Math.abs(x) < 0.01 && x !== 0) ? x.toExponential(2) : x.toFixed(digits));
 const pair = (a: number | null | undefined, b: number | null | undefined) => `${num(a, 2)} / ${num(b, 2)}`;
+
+function scanLine(x: CertificateScan): string {
+	const state = x.invalidated ? `invalidated (${x.invalidated.cause}), approved by ${x.invalidated.approvedBy}` : x.counts ? 'counts' : 'not counted';
+	return `${x.fileName} [${x.sha12}] ${verdictText({ verdict: x.verdict, profile: x.profile, ambiguous: false })}, ${state}`;
+}
 
 export function verdictText(c: Pick<CertificateContainer, 'verdict' | 'profile' | 'ambiguous'>) {
 	const base = c.verdict === 'not-this-material' ? 'not this material' : c.verdict === 'suspect' ? `suspect: ${c.profile ?? 'profile'}` : c.verdict;
@@ -315,7 +335,9 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 		doc.font('body').fontSize(8.5);
 		const reason = c.verdict !== 'genuine' && c.reason ? latin(c.reason) : null;
 		const reasonHeight = reason ? doc.fontSize(7.5).heightOfString(reason, { width: width - 60 }) + 2 : 0;
-		const rowHeight = 13 + reasonHeight;
+		const scanText = c.scans?.length ? latin(`${c.replicates && c.replicates.required > 1 ? `Replicates ${c.replicates.done} of ${c.replicates.required}. ` : ''}Scans: ${c.scans.map(scanLine).join('; ')}`) : null;
+		const scanHeight = scanText ? doc.fontSize(7.5).heightOfString(scanText, { width: width - 60 }) + 2 : 0;
+		const rowHeight = 13 + reasonHeight + scanHeight;
 		if (doc.y + rowHeight > bottom()) {
 			doc.addPage();
 			header();
@@ -331,6 +353,7 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 			x += cols[i].w;
 		});
 		if (reason) doc.font('body').fontSize(7.5).fillColor(MUTED).text(reason, left + 56, y + 12, { width: width - 60 });
+		if (scanText) doc.font('body').fontSize(7.5).fillColor(INK).text(scanText, left + 56, y + 12 + reasonHeight, { width: width - 60 });
 		doc.y = y + rowHeight;
 		doc.save().strokeColor('#e5e9ec').lineWidth(0.4).moveTo(left, doc.y - 1).lineTo(left + width, doc.y - 1).stroke().restore();
 	}
@@ -342,13 +365,33 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 		{ width }
 	);
 
+	// ---------- invalidated scans ----------
+	const invalidated = content.containers.flatMap((c) => (c.scans ?? []).filter((x) => x.invalidated).map((x) => ({ container: c.container, scan: x })));
+	if (invalidated.length) {
+		heading('Invalidated scans');
+		for (const { container, scan } of invalidated) {
+			const v = scan.invalidated!;
+			ensure(30);
+			doc.font('body').fontSize(8.5).fillColor(INK).text(
+				latin(
+					`Container ${container}, scan #${scan.scanId} ${scan.fileName} (SHA-256 ${scan.sha12}…), ${verdictText({ verdict: scan.verdict, profile: scan.profile, ambiguous: false })}: ` +
+						`invalidated by ${v.proposedBy} because ${v.causeLabel}: "${v.description}"; approved by ${v.approvedBy}, ${v.atText}.`
+				),
+				left,
+				doc.y + 2,
+				{ width }
+			);
+		}
+		doc.font('body').fontSize(7.5).fillColor(MUTED).text(latin('An invalidated scan keeps its verdict on record but no longer counts toward its container.'), left, doc.y + 3, { width });
+	}
+
 	// ---------- distance plot ----------
 	if (content.plot) drawPlot(doc, content.plot, left, width, ensure, heading);
 
 	// ---------- signatures ----------
 	heading('Electronic signatures');
 	if (content.disposition.twoPersonRule)
-		facts([['Two-person rule', 'The lot failed identity: its release carries the signatures of two different QA managers.']]);
+		facts([['Two-person rule', `${content.disposition.twoPersonReason ?? 'The lot failed identity'}: its release carries the signatures of two different QA managers.`]]);
 	if (content.disposition.supersedes) {
 		const s = content.disposition.supersedes;
 		facts([['Supersedes', `disposition #${s.id} (${s.decision}${s.effectiveAtText ? `, ${s.effectiveAtText}` : ''}), which stays on record`]]);

@@ -13,6 +13,7 @@ import { certificateDocumentHash, renderCertificate, type CertificateContainer, 
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
 import * as containerResults from './container-results';
+import { CAUSE_LABELS } from './container-results';
 import { conflict, forbidden, notFound, ServiceError } from './errors';
 import * as lots from './lots';
 import * as signatures from './signatures';
@@ -529,7 +530,23 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 			fileName: s.fileName,
 			sha256: s.sha256,
 			family: stats(r?.family),
-			genuine: genuineName ? stats(r?.classes?.[genuineName]) : null
+			genuine: genuineName ? stats(r?.classes?.[genuineName]) : null,
+			...(s.history
+				? {
+						replicates: s.replicates,
+						scans: s.history.map((h) => ({
+							scanId: h.scanId,
+							fileName: h.fileName,
+							sha12: h.sha256.slice(0, 12),
+							verdict: h.verdict,
+							profile: h.profile,
+							counts: h.counts,
+							invalidated: h.invalidated
+								? { ...h.invalidated, causeLabel: CAUSE_LABELS[h.invalidated.cause as keyof typeof CAUSE_LABELS] ?? h.invalidated.cause, atText: formatZoned(h.invalidated.at, options.timeZone) }
+								: null
+						}))
+					}
+				: {})
 		};
 	});
 	const superseded = d.supersedes_id ? await row(Number(d.supersedes_id), tx) : null;
@@ -567,7 +584,10 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 			decisionText: DECISION_TEXT[d.decision],
 			recordHash: d.record_hash,
 			supersedes: superseded ? { id: Number(superseded.id), decision: DECISION_TEXT[superseded.decision], effectiveAtText: superseded.effective_at ? formatZoned(new Date(superseded.effective_at).toISOString(), options.timeZone) : null } : null,
-			twoPersonRule: d.needs_second
+			twoPersonRule: d.needs_second,
+			...(d.needs_second && record.failingHistory && record.identity !== 'fails'
+				? { twoPersonReason: 'A container of the lot had a non-genuine result, since invalidated' }
+				: {})
 		},
 		signatures: sigs.map((s, i) => ({
 			signerName: s.signerName,
