@@ -1,6 +1,6 @@
 // Data factories shared by integration tests: unique names so test files never collide.
 import { randomBytes } from 'node:crypto';
-import type { Role } from '../../src/lib/server/db/models';
+import type { Role } from '../../src/lib/permissions';
 import type { Actor } from '../../src/lib/server/services/actor';
 
 export const unique = (prefix: string) => `${prefix}-${randomBytes(3).toString('hex')}`;

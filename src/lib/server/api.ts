@@ -1,6 +1,6 @@
 import { json, type RequestEvent } from '@sveltejs/kit';
 import { ZodError } from 'zod';
-import type { Role } from '$lib/permissions';
+import { flatRoles, type Allowed } from '$lib/permissions';
 import { markDatabaseDown } from './db';
 import { BodyTooLarge, isConnectionError } from './request-limits';
 import { hasRole, type Actor } from './services/actor';
@@ -40,10 +40,11 @@ export function errorResponse(error: unknown) {
 }
 
 /** Re-checks the caller inside the handler (the hook guards too): 401 without identity, 403 without a role. */
-export function requireActor(event: RequestEvent, ...roles: Role[]): Actor {
+export function requireActor(event: RequestEvent, ...allowed: Allowed[]): Actor {
 	const actor = event.locals.actor;
 	if (!actor) throw new ServiceError(401, 'unauthenticated', 'Sign in, or send an instrument token');
-	if (roles.length && !hasRole(actor, ...roles)) {
+	const roles = flatRoles(allowed);
+	if (roles.length && !hasRole(actor, roles)) {
 		throw new ServiceError(403, 'forbidden', `This needs one of the roles: ${roles.join(', ')}`);
 	}
 	return actor;

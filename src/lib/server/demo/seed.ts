@@ -1,5 +1,5 @@
 // The invented demo scenario (Quarrymoor Pharmaceuticals, demo only): accounts, suppliers, instruments, materials.
-import type { Role } from '../db/models';
+import type { Role } from '../../permissions';
 import { models } from '../db';
 import { type Actor } from '../services/actor';
 import * as instruments from '../services/instruments';

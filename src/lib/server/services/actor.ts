@@ -1,4 +1,4 @@
-import type { Role } from '../db/models';
+import { holds, type Allowed, type Role } from '../../permissions';
 
 /** Who performs a change: a signed-in user, an instrument token, or the system itself. */
 export interface Actor {
@@ -13,6 +13,7 @@ export interface Actor {
 
 export const systemActor: Actor = { id: null, label: 'system', roles: [] };
 
-export function hasRole(actor: Pick<Actor, 'roles'> | null | undefined, ...roles: Role[]): boolean {
-	return !!actor && roles.some((role) => actor.roles.includes(role));
+/** True when the actor holds any of the roles or capabilities (`hasRole(actor, can.uploadScans)`). */
+export function hasRole(actor: Pick<Actor, 'roles'> | null | undefined, ...allowed: Allowed[]): boolean {
+	return !!actor && holds(actor.roles, ...allowed);
 }

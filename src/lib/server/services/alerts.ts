@@ -1,4 +1,5 @@
 // Supplier alerts for procurement: opened automatically (inside the scan's transaction) when a lot gets a
+import { can } from '../../permissions';
 // non-genuine verdict, then acknowledged and closed by procurement, each step with a note and an audit event.
 //
 // Severity follows the verdict, worst first:
@@ -45,7 +46,7 @@ export interface ScanFinding {
 export const noteSchema = z.object({ note: z.string().trim().min(3, 'Write a note of at least 3 characters').max(2000, 'At most 2000 characters') });
 
 function requireProcurement(actor: Actor) {
-	if (!hasRole(actor, 'procurement', 'admin')) throw forbidden('Only procurement (or an admin) handles supplier alerts');
+	if (!hasRole(actor, can.handleAlerts)) throw forbidden('Only procurement (or an admin) handles supplier alerts');
 }
 
 const verdictText = (f: { verdict: string; profile?: string | null }) => (f.verdict === 'suspect' ? `suspect (${f.profile ?? 'profile'})` : f.verdict === 'not-this-material' ? 'not this material' : f.verdict);

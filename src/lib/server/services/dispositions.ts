@@ -1,4 +1,5 @@
 // QA dispositions of a lot: release, quarantine or reject with an electronic signature (21 CFR 11.50/11.70/11.200).
+import { can } from '../../permissions';
 // A disposition is never edited; a correction is a new one that supersedes it. Releasing a lot that failed identity
 // needs a second QA signature from a different person. When a disposition takes effect, in the same transaction, the
 // lot status changes, the certificate is generated and stored, and the mail is written to the outbox.
@@ -41,7 +42,7 @@ export const cosignSchema = signatures.signatureFieldsSchema;
 const timeZone = () => process.env.LOTGATE_TIME_ZONE || DEFAULT_TIME_ZONE;
 
 function requireQa(actor: Actor) {
-	if (actor.id == null || !hasRole(actor, 'qa')) throw forbidden('Only a QA manager signs a disposition');
+	if (actor.id == null || !hasRole(actor, can.signDispositions)) throw forbidden('Only a QA manager signs a disposition');
 }
 
 // ---------- the signed record ----------

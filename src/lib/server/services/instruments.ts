@@ -1,3 +1,4 @@
+import { can } from '../../permissions';
 import { col, fn, where as sqlWhere } from 'sequelize';
 import { z } from 'zod';
 import { models, transaction, type Transaction } from '../db';
@@ -59,7 +60,7 @@ export type PublicToken = ReturnType<typeof tokenPublic>;
 const byName = (name: string) => sqlWhere(fn('lower', col('name')), name.toLowerCase());
 
 function requireAdmin(actor: Actor, what: string) {
-	if (!hasRole(actor, 'admin')) throw forbidden(`Only an admin ${what}`);
+	if (!hasRole(actor, can.administer)) throw forbidden(`Only an admin ${what}`);
 }
 
 /** Today as YYYY-MM-DD in the server's time zone: a due date is valid through that whole day. */

@@ -1,4 +1,5 @@
 // A material's reference library: labelled spectra (class, supplier, supplier lot, instrument, role) for model building.
+import { can } from '../../permissions';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { sequelize, transaction } from '../db';
@@ -42,7 +43,7 @@ export interface AddedEntry {
 }
 
 function requireMethodOwner(actor: Actor) {
-	if (!hasRole(actor, 'chemometrician', 'admin')) throw forbidden('Only a chemometrician or an admin curates a reference library');
+	if (!hasRole(actor, can.curateLibrary)) throw forbidden('Only a chemometrician or an admin curates a reference library');
 }
 
 const pick = (meta: Record<string, string>, column: string) => {

@@ -1,4 +1,5 @@
 // Lots: receiving a delivery (internal lot number, sampling plan, supplier flag), listing, and the lot record with
+import { can } from '../../permissions';
 // its containers, scans and screening outcome. Scans and the lot status live in scans.ts.
 import { randomInt } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
@@ -88,7 +89,7 @@ export function isClosed(lot: { status: string }): boolean {
 }
 
 function requireReceiver(actor: Actor) {
-	if (!hasRole(actor, 'technician', 'admin')) throw forbidden('Only a technician or an admin receives lots');
+	if (!hasRole(actor, can.receiveLots)) throw forbidden('Only a technician or an admin receives lots');
 }
 
 async function resolveMaterial(r: string | number, tx?: Transaction) {

@@ -1,3 +1,4 @@
+import { can } from '../../permissions';
 import { z } from 'zod';
 import { models, transaction } from '../db';
 import type { Material, MaterialClass } from '../db/models';
@@ -45,7 +46,7 @@ export function toPublic(m: Material) {
 export const classToPublic = (c: MaterialClass) => ({ id: c.id, materialId: c.materialId, name: c.name, kind: c.kind, description: c.description });
 
 function requireMethodOwner(actor: Actor) {
-	if (!hasRole(actor, 'chemometrician', 'admin')) throw forbidden('Only a chemometrician or an admin manages materials');
+	if (!hasRole(actor, can.manageMaterials)) throw forbidden('Only a chemometrician or an admin manages materials');
 }
 
 export async function create(actor: Actor, input: MaterialInput, reason?: string) {

@@ -1,4 +1,5 @@
 // Model versions of a material: build (as a pg-boss job), evidence figures, validation, exclusions and rebuilds, diffs,
+import { can } from '../../permissions';
 // and QA approval with an electronic signature. Only the single approved version of a material screens lots.
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
@@ -322,7 +323,7 @@ export async function memberships(versionId: number, tx?: Transaction): Promise<
 // ---------- building ----------
 
 function requireBuilder(actor: Actor) {
-	if (!hasRole(actor, 'chemometrician', 'admin')) throw forbidden('Only a chemometrician or an admin builds model versions');
+	if (!hasRole(actor, can.buildModels)) throw forbidden('Only a chemometrician or an admin builds model versions');
 	if (actor.id == null) throw forbidden('A model version is built by a named person');
 }
 
@@ -838,7 +839,7 @@ function signedRecord(v: VersionRow, code: string) {
 
 /** QA approves a draft: e-signature, never by its builder; the previous approved version of the material is retired. */
 export async function approve(actor: Actor, versionRef: number | string, input: z.input<typeof approvalSchema>) {
-	if (!hasRole(actor, 'qa')) throw forbidden('Only a QA user approves model versions');
+	if (!hasRole(actor, can.approveModels)) throw forbidden('Only a QA user approves model versions');
 	const data = approvalSchema.parse(input);
 	const versionId = await resolve(versionRef);
 	return transaction(async (tx) => {

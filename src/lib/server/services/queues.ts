@@ -40,7 +40,8 @@ const QUEUES: QueueDefinition[] = [
 	{ key: 'model-drafts', role: 'chemometrician', title: 'Model drafts', empty: 'No draft model version is open.', action: { href: '/materials', label: 'Go to materials' }, items: (actor) => modelVersions.queueItems('chemometrician', actor) },
 	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.', items: async (actor) => [...(await lotItems('screened')), ...(await dispositions.queueItems(actor)), ...(await supplierStatus.queueItems(actor)), ...(await modelVersions.queueItems('qa', actor))] },
 	{ key: 'supplier-alerts', role: 'procurement', title: 'Open supplier alerts', empty: 'No supplier alert is open.', action: { href: '/alerts', label: 'All alerts' }, items: () => alerts.queueItems() },
-	{ key: 'admin', role: 'admin', title: 'Administration', empty: 'Users, instruments and their tokens.', action: { href: '/admin', label: 'Open admin' } }
+	{ key: 'admin', role: 'admin', title: 'Administration', empty: 'Users, instruments and their tokens.', action: { href: '/admin', label: 'Open admin' } },
+	{ key: 'audit-trail', role: 'auditor', title: 'Audit trail', empty: 'Every recorded change, with who, when and why; read it or export it as CSV.', action: { href: '/audit', label: 'Open the audit trail' } }
 ];
 
 export async function queuesFor(actor: Actor): Promise<Queue[]> {

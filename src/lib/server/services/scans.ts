@@ -1,4 +1,5 @@
 // Scans of a lot's containers: store the raw file (through the intake), screen it at once with the material's approved
+import { can } from '../../permissions';
 // model version, keep the verdict with its full statistics, and recompute the lot status — one transaction per scan.
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
@@ -75,7 +76,7 @@ function screenStored(prep: PreparedArtefact, spectrum: Parameters<typeof screen
 }
 
 function requireScanner(actor: Actor) {
-	if (actor.instrumentId == null && !hasRole(actor, 'technician', 'admin')) throw forbidden('Only a technician, an admin or an instrument token adds scans');
+	if (actor.instrumentId == null && !hasRole(actor, can.uploadScans)) throw forbidden('Only a technician, an admin or an instrument token adds scans');
 }
 
 function planText(lot: { internal_lot: string; plan: { label?: string; kind: string } }, sampled: number[]) {

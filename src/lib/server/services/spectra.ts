@@ -1,4 +1,5 @@
 // Spectrum intake: parse an uploaded file, keep its bytes exactly (with SHA-256) and the parsed spectra beside them,
+import { can } from '../../permissions';
 // one transaction and one audit event per file. Library and lot workflows reuse `ingestFile` inside their own transaction.
 import { createHash } from 'node:crypto';
 import { QueryTypes, UniqueConstraintError } from 'sequelize';
@@ -118,7 +119,7 @@ export function float8ArrayBinary(values: ArrayLike<number>): Buffer {
 const techniqueWord = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
 
 function mayUpload(actor: Actor) {
-	return actor.instrumentId != null || hasRole(actor, 'technician', 'chemometrician', 'admin');
+	return actor.instrumentId != null || hasRole(actor, can.uploadSpectra);
 }
 
 /** The instrument a file comes from: the token's own, or the one named in the upload; refused when not qualified. */
@@ -454,7 +455,7 @@ const RECORD_SQL = `
     LEFT JOIN users u ON u.id = sp.uploaded_by`;
 
 function requireReader(actor: Actor) {
-	if (!hasRole(actor, 'technician', 'chemometrician', 'qa', 'admin')) throw forbidden('Your role does not give access to stored spectra');
+	if (!hasRole(actor, can.readSpectra)) throw forbidden('Your role does not give access to stored spectra');
 }
 
 const spectrumId = (id: number | string) => {

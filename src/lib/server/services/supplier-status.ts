@@ -1,4 +1,5 @@
 // Supplier status changes (qualified, on watch, blocked) in two steps: procurement requests with a reason, and a QA
+import { can } from '../../permissions';
 // manager co-signs with an electronic signature before the status changes. Both steps are audited.
 import { QueryTypes } from 'sequelize';
 import { z } from 'zod';
@@ -67,7 +68,7 @@ export async function forSupplier(supplierId: number, limit = 20): Promise<Statu
 
 /** Procurement asks for a status change; nothing changes until QA co-signs. */
 export async function request(actor: Actor, supplierRef: string | number, input: z.input<typeof requestSchema>) {
-	if (actor.id == null || !hasRole(actor, 'procurement')) throw forbidden('Only procurement requests a supplier status change');
+	if (actor.id == null || !hasRole(actor, can.requestSupplierStatus)) throw forbidden('Only procurement requests a supplier status change');
 	const data = requestSchema.parse(input);
 	const supplier = await suppliers.get(supplierRef);
 	const id = await transaction(async (tx) => {
@@ -102,7 +103,7 @@ export async function request(actor: Actor, supplierRef: string | number, input:
 
 /** A QA manager co-signs (password, meaning, reason); the status changes in the same transaction. */
 export async function approve(actor: Actor, requestId: number, input: z.input<typeof signatures.signatureFieldsSchema>) {
-	if (actor.id == null || !hasRole(actor, 'qa')) throw forbidden('Only a QA manager co-signs a supplier status change');
+	if (actor.id == null || !hasRole(actor, can.cosignSupplierStatus)) throw forbidden('Only a QA manager co-signs a supplier status change');
 	const fields = signatures.signatureFieldsSchema.parse(input);
 	await transaction(async (tx) => {
 		const rows = await sequelize().query<{ id: number; supplier_id: number; from_status: SupplierStatus; to_status: SupplierStatus; reason: string; state: string; requested_by: number }>(
@@ -140,7 +141,7 @@ export async function approve(actor: Actor, requestId: number, input: z.input<ty
 }
 
 export async function decline(actor: Actor, requestId: number, note: string) {
-	if (actor.id == null || !hasRole(actor, 'qa')) throw forbidden('Only a QA manager declines a supplier status change');
+	if (actor.id == null || !hasRole(actor, can.cosignSupplierStatus)) throw forbidden('Only a QA manager declines a supplier status change');
 	const data = declineSchema.parse({ note });
 	await transaction(async (tx) => {
 		const rows = await sequelize().query<{ state: string; supplier_id: number }>('SELECT state, supplier_id FROM supplier_status_requests WHERE id = :id FOR UPDATE', {

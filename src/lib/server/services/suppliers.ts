@@ -1,3 +1,4 @@
+import { can } from '../../permissions';
 import { Op } from 'sequelize';
 import { z } from 'zod';
 import { models, transaction } from '../db';
@@ -26,7 +27,7 @@ export function toPublic(s: Supplier) {
 export type PublicSupplier = ReturnType<typeof toPublic>;
 
 function requireManager(actor: Actor) {
-	if (!hasRole(actor, 'procurement', 'admin')) throw forbidden('Only procurement or an admin manages suppliers');
+	if (!hasRole(actor, can.manageSuppliers)) throw forbidden('Only procurement or an admin manages suppliers');
 }
 
 export async function create(actor: Actor, input: SupplierInput, reason?: string) {

@@ -1,9 +1,10 @@
+import { can } from '$lib/permissions';
 import { requireUser } from '$lib/server/guard';
 import * as alerts from '$lib/server/services/alerts';
 import type { PageServerLoad } from './$types';
 
 export const load = (async (event) => {
-	requireUser(event, 'procurement', 'qa', 'admin');
+	requireUser(event, can.readAlerts);
 	const q = event.url.searchParams;
 	const state = q.get('state') ?? 'live';
 	const supplier = q.get('supplier') ?? '';

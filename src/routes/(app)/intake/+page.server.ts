@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import * as instruments from '$lib/server/services/instruments';
@@ -5,7 +6,7 @@ import * as spectra from '$lib/server/services/spectra';
 import type { PageServerLoad } from './$types';
 
 export const load = (async (event) => {
-	const actor = requireUser(event, 'technician', 'chemometrician', 'qa', 'admin');
+	const actor = requireUser(event, can.readSpectra);
 	const q = event.url.searchParams;
 	const today = instruments.today();
 	const list = await spectra.list(actor, {
@@ -15,7 +16,7 @@ export const load = (async (event) => {
 		q: q.get('q') ?? undefined
 	});
 	return {
-		canUpload: hasRole(actor, 'technician', 'chemometrician', 'admin'),
+		canUpload: hasRole(actor, can.uploadSpectra),
 		instruments: (await instruments.list())
 			.filter((i) => i.active)
 			.map((i) => ({ id: i.id, name: i.name, technique: i.technique, qualificationDue: i.qualificationDue, qualified: i.qualificationDue >= today })),

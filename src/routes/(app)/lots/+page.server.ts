@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { error } from '@sveltejs/kit';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
@@ -32,6 +33,6 @@ export const load = (async (event) => {
 		statuses: lots.LOT_STATUSES.map((s) => ({ value: s, label: lots.STATUS_LABELS[s] })),
 		materials: (await materials.list()).map((m) => ({ code: m.code, name: m.name })),
 		suppliers: (await suppliers.list({ pageSize: 500 })).rows.map((s) => ({ code: s.code, name: s.name })),
-		canReceive: hasRole(actor, 'technician', 'admin')
+		canReceive: hasRole(actor, can.receiveLots)
 	};
 }) satisfies PageServerLoad;

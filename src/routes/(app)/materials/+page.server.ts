@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail, redirect } from '@sveltejs/kit';
 import { superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -32,14 +33,14 @@ export const load = (async (event) => {
 	const byId = new Map(stats.map((s) => [s.material_id, s]));
 	return {
 		rows: rows.map((m) => ({ ...m, library: Number(byId.get(m.id)?.library ?? 0), approved: byId.get(m.id)?.approved ?? null, drafts: Number(byId.get(m.id)?.drafts ?? 0) })),
-		canManage: hasRole(actor, 'chemometrician', 'admin'),
+		canManage: hasRole(actor, can.manageMaterials),
 		form: await superValidate(zod(createSchema))
 	};
 }) satisfies PageServerLoad;
 
 export const actions = {
 	create: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.manageMaterials);
 		const form = await superValidate(event.request, zod(createSchema));
 		if (!form.valid) return fail(400, { form });
 		let code: string;

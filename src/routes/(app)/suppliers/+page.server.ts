@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -27,14 +28,14 @@ export const load = (async (event) => {
 	return {
 		result: await suppliers.list({ page, sort, status: status || undefined, q: search || undefined, pageSize: 25 }),
 		filters: { sort, status, q: search },
-		canManage: hasRole(actor, 'procurement', 'admin'),
+		canManage: hasRole(actor, can.manageSuppliers),
 		form: await superValidate(zod(createSchema))
 	};
 }) satisfies PageServerLoad;
 
 export const actions = {
 	create: async (event) => {
-		const actor = requireUser(event, 'procurement', 'admin');
+		const actor = requireUser(event, can.manageSuppliers);
 		const form = await superValidate(event.request, zod(createSchema));
 		if (!form.valid) return fail(400, { form });
 		try {

@@ -7,6 +7,7 @@ import lotsExtra from './005-lots-extra';
 import disposition from './006-disposition';
 import sessionsAndDuties from './020-sessions-and-duties';
 import resultIntegrity from './030-result-integrity';
+import auditorRole from './060-auditor-role';
 
 export interface Migration {
 	name: string;
@@ -15,4 +16,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity, auditorRole];

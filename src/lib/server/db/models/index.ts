@@ -1,7 +1,6 @@
 import { DataTypes, Model, type Sequelize } from 'sequelize';
+import type { Role } from '../../../permissions';
 
-export type Role = 'technician' | 'chemometrician' | 'qa' | 'procurement' | 'admin';
-export const ROLES: Role[] = ['technician', 'chemometrician', 'qa', 'procurement', 'admin'];
 export type SupplierStatus = 'qualified' | 'on-watch' | 'blocked';
 export type Technique = 'NIR' | 'Raman' | 'mid-IR';
 

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -21,7 +22,7 @@ const tokenSchema = z.object({ instrumentId: z.coerce.number().int(), label: ins
 const revokeSchema = z.object({ instrumentId: z.coerce.number().int(), tokenId: z.coerce.number().int(), reason });
 
 export const load = (async (event) => {
-	const actor = requireUser(event, 'admin');
+	const actor = requireUser(event, can.administer);
 	const today = instruments.today();
 	const [list, tokens] = await Promise.all([instruments.list(), instruments.listTokens(actor)]);
 	return {
@@ -33,7 +34,7 @@ export const load = (async (event) => {
 
 export const actions = {
 	create: async (event) => {
-		const actor = requireUser(event, 'admin');
+		const actor = requireUser(event, can.administer);
 		const form = await superValidate(event.request, zod(createSchema), { id: 'create-instrument' });
 		if (!form.valid) return fail(400, { createForm: form });
 		try {
@@ -49,13 +50,13 @@ export const actions = {
 		}
 	},
 	update: async (event) => {
-		const actor = requireUser(event, 'admin');
+		const actor = requireUser(event, can.administer);
 		return rowAction(event.request, updateSchema, (d) =>
 			instruments.update(actor, d.instrumentId, { serial: d.serial, qualificationDue: d.qualificationDue, active: d.active === 'true' }, d.reason)
 		);
 	},
 	token: async (event) => {
-		const actor = requireUser(event, 'admin');
+		const actor = requireUser(event, can.administer);
 		const form = await superValidate(event.request, zod(tokenSchema));
 		if (!form.valid) return fail(400, { rowForm: form });
 		try {
@@ -68,7 +69,7 @@ export const actions = {
 		}
 	},
 	revoke: async (event) => {
-		const actor = requireUser(event, 'admin');
+		const actor = requireUser(event, can.administer);
 		return rowAction(event.request, revokeSchema, (d) => instruments.revokeToken(actor, d.tokenId, d.reason));
 	}
 } satisfies Actions;

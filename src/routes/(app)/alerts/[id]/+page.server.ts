@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { error, fail } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -14,21 +15,21 @@ const alertId = (event: { params: { id: string } }) => {
 };
 
 export const load = (async (event) => {
-	const actor = requireUser(event, 'procurement', 'qa', 'admin');
+	const actor = requireUser(event, can.readAlerts);
 	const alert = await alerts.get(alertId(event)).catch((e) => {
 		if (e instanceof ServiceError && e.status === 404) error(404, e.message);
 		throw e;
 	});
 	return {
 		alert,
-		canHandle: hasRole(actor, 'procurement', 'admin'),
+		canHandle: hasRole(actor, can.handleAlerts),
 		ackForm: await superValidate(zod(alerts.noteSchema), { id: 'acknowledge' }),
 		closeForm: await superValidate(zod(alerts.noteSchema), { id: 'close' })
 	};
 }) satisfies PageServerLoad;
 
 async function step(event: RequestEvent, which: 'acknowledge' | 'close') {
-	const actor = requireUser(event, 'procurement', 'admin');
+	const actor = requireUser(event, can.handleAlerts);
 	const form = await superValidate(event.request, zod(alerts.noteSchema), { id: which });
 	if (!form.valid) return fail(400, { form });
 	try {

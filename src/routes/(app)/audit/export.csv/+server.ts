@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import Papa from 'papaparse';
 import { auditQueryFrom } from '$lib/server/audit-query';
 import { requireUser } from '$lib/server/guard';
@@ -5,7 +6,7 @@ import * as audit from '$lib/server/services/audit';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = async (event) => {
-	requireUser(event, 'qa', 'admin');
+	requireUser(event, can.exportAudit);
 	const query = auditQueryFrom(event.url);
 	const rows: Record<string, unknown>[] = [];
 	for (let page = 1; ; page++) {

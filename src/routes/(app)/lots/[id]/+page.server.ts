@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail } from '@sveltejs/kit';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
@@ -17,7 +18,7 @@ export const load = (async (event) => {
 		lot,
 		evidence,
 		caution: SCREENING_CAUTION,
-		canScan: hasRole(actor, 'technician', 'admin') && !lot.closed,
+		canScan: hasRole(actor, can.uploadScans) && !lot.closed,
 		instruments: (await instruments.list()).filter((i) => i.active).map((i) => ({ id: i.id, name: i.name, technique: i.technique })),
 		disposition: await dispositionPanelData(actor, lot),
 		invalidation: { ...invalidationPageData(actor), open: !lot.closed }
@@ -34,7 +35,7 @@ export const actions = {
 	refuseInvalidation: (event) => decideAction(event, 'refuse'),
 	/** One file for one container: the form path that works without JavaScript. */
 	scan: async (event) => {
-		const actor = requireUser(event, 'technician', 'admin');
+		const actor = requireUser(event, can.uploadScans);
 		const form = await event.request.formData();
 		const file = form.get('file');
 		const container = String(form.get('container') ?? '');
@@ -54,7 +55,7 @@ export const actions = {
 		}
 	},
 	rescreen: async (event) => {
-		const actor = requireUser(event, 'technician', 'admin');
+		const actor = requireUser(event, can.uploadScans);
 		try {
 			const done = await scans.rescreen(actor, event.params.id);
 			return { rescreened: done.scans.length };

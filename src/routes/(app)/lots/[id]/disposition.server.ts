@@ -1,4 +1,5 @@
 // The lot page's disposition slot: what DispositionPanel.svelte shows, and its two named actions (?/dispose, ?/cosign).
+import { can } from '$lib/permissions';
 import { fail, type RequestEvent } from '@sveltejs/kit';
 import { message, superValidate, type SuperValidated } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -24,7 +25,7 @@ export async function dispositionPanelData(actor: Actor, lot: LotView) {
 		cosignForm.data.dispositionId = pending.id;
 		cosignForm.data.meaning = dispositions.COSIGN_MEANINGS[0];
 	}
-	const isQa = hasRole(actor, 'qa');
+	const isQa = hasRole(actor, can.signDispositions);
 	const complete = lot.identity === 'meets' || lot.identity === 'fails';
 	disposeForm.data.decision = complete ? (lot.identity === 'meets' ? 'release' : 'quarantine') : 'quarantine';
 	disposeForm.data.meaning = dispositions.MEANINGS[disposeForm.data.decision][0];
@@ -62,7 +63,7 @@ function refuse(form: SuperValidated<any, any>, error: unknown) {
 }
 
 export async function disposeAction(event: RequestEvent<{ id: string }>) {
-	const actor = requireUser(event, 'qa');
+	const actor = requireUser(event, can.signDispositions);
 	const form = await superValidate(event.request, zod(disposeFormSchema), { id: 'dispose' });
 	if (!form.valid) {
 		form.data.password = '';
@@ -79,7 +80,7 @@ export async function disposeAction(event: RequestEvent<{ id: string }>) {
 }
 
 export async function cosignAction(event: RequestEvent<{ id: string }>) {
-	const actor = requireUser(event, 'qa');
+	const actor = requireUser(event, can.signDispositions);
 	const form = await superValidate(event.request, zod(cosignFormSchema), { id: 'cosign' });
 	if (!form.valid) {
 		form.data.password = '';

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail, redirect } from '@sveltejs/kit';
 import { superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -10,7 +11,7 @@ import { receiveSchema } from './schema';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load = (async (event) => {
-	requireUser(event, 'technician', 'admin');
+	requireUser(event, can.receiveLots);
 	const form = await superValidate(zod(receiveSchema));
 	form.data.receivedAt = new Date().toISOString().slice(0, 10);
 	return {
@@ -22,7 +23,7 @@ export const load = (async (event) => {
 
 export const actions = {
 	default: async (event) => {
-		const actor = requireUser(event, 'technician', 'admin');
+		const actor = requireUser(event, can.receiveLots);
 		const form = await superValidate(event.request, zod(receiveSchema));
 		if (!form.valid) return fail(400, { form });
 		let internalLot: string;

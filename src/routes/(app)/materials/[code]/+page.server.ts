@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -44,14 +45,14 @@ export const load = (async (event) => {
 			meta: library.plotMeta(result.rows)
 		},
 		versions: modelVersions,
-		canManage: hasRole(actor, 'chemometrician', 'admin'),
+		canManage: hasRole(actor, can.manageMaterials),
 		classForm: await superValidate(zod(materials.classSchema), { id: 'add-class' })
 	};
 }) satisfies PageServerLoad;
 
 export const actions = {
 	addClass: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.manageMaterials);
 		const material = await materials.get(event.params.code);
 		const form = await superValidate(event.request, zod(materials.classSchema), { id: 'add-class' });
 		if (!form.valid) return fail(400, { classForm: form });
@@ -63,7 +64,7 @@ export const actions = {
 		}
 	},
 	upload: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.manageMaterials);
 		const material = await materials.get(event.params.code);
 		const data = await event.request.formData();
 		const text = (name: string) => {

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { error, fail } from '@sveltejs/kit';
 import { message, superValidate, type SuperValidated } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -31,8 +32,8 @@ export const load = (async (event) => {
 		card,
 		requests,
 		pending,
-		canRequest: hasRole(actor, 'procurement') && !pending,
-		canCosign: hasRole(actor, 'qa') && !!pending && pending.requestedById !== actor.id,
+		canRequest: hasRole(actor, can.requestSupplierStatus) && !pending,
+		canCosign: hasRole(actor, can.cosignSupplierStatus) && !!pending && pending.requestedById !== actor.id,
 		requestForm: await superValidate(zod(supplierStatus.requestSchema), { id: 'request-status' }),
 		approveForm,
 		declineForm,
@@ -56,7 +57,7 @@ function refuse(form: SuperValidated<any, any>, e: unknown) {
 
 export const actions = {
 	requestStatus: async (event) => {
-		const actor = requireUser(event, 'procurement');
+		const actor = requireUser(event, can.requestSupplierStatus);
 		const form = await superValidate(event.request, zod(supplierStatus.requestSchema), { id: 'request-status' });
 		if (!form.valid) return fail(400, { form });
 		try {
@@ -67,7 +68,7 @@ export const actions = {
 		}
 	},
 	approveStatus: async (event) => {
-		const actor = requireUser(event, 'qa');
+		const actor = requireUser(event, can.cosignSupplierStatus);
 		const form = await superValidate(event.request, zod(approveSchema), { id: 'approve-status' });
 		if (!form.valid) {
 			form.data.password = '';
@@ -82,7 +83,7 @@ export const actions = {
 		}
 	},
 	declineStatus: async (event) => {
-		const actor = requireUser(event, 'qa');
+		const actor = requireUser(event, can.cosignSupplierStatus);
 		const form = await superValidate(event.request, zod(declineSchema), { id: 'decline-status' });
 		if (!form.valid) return fail(400, { form });
 		try {

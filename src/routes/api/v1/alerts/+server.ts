@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, requireActor } from '$lib/server/api';
 import * as alerts from '$lib/server/services/alerts';
@@ -5,7 +6,7 @@ import type { RequestHandler } from './$types';
 
 /** ?state=open|acknowledged|closed|live&supplier=&lot=&sort=severity:desc&page= */
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, 'procurement', 'qa', 'admin');
+	requireActor(event, can.readAlerts);
 	const p = event.url.searchParams;
 	return json(
 		await alerts.list({

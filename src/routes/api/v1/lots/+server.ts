@@ -1,13 +1,12 @@
+import { ANY_SIGNED_IN, can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as lots from '$lib/server/services/lots';
 import type { RequestHandler } from './$types';
 
-const READERS = ['technician', 'chemometrician', 'qa', 'procurement', 'admin'] as const;
-
 /** ?status=&material=&supplier=&from=&to=&q=&sort=receivedAt:desc&page=&pageSize= — every signed-in role. */
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, ...READERS);
+	requireActor(event, ANY_SIGNED_IN);
 	const p = event.url.searchParams;
 	const result = await lots.list({
 		status: p.get('status') ?? undefined,
@@ -29,7 +28,7 @@ export const GET: RequestHandler = handler(async (event) => {
  * 201 with the lot: internal lot number, plan, containers numbered 1..N.
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'technician', 'admin');
+	const actor = requireActor(event, can.receiveLots);
 	const body = await readJson(event.request);
 	const created = await lots.create(actor, lots.lotSchema.parse(body), typeof body.reason === 'string' ? body.reason : undefined);
 	return json(created, { status: 201, headers: { location: `/api/v1/lots/${created.id}` } });

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { apiError, handler, requireActor } from '$lib/server/api';
 import { ServiceError } from '$lib/server/services/errors';
@@ -6,7 +7,7 @@ import type { RequestHandler } from './$types';
 
 /** Loose uploads (the intake page), newest first: ?page, pageSize, sort (id|file|format|points|instrument|uploader|created[:asc|desc]), q. */
 export const GET: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'technician', 'chemometrician', 'qa', 'admin');
+	const actor = requireActor(event, can.readSpectra);
 	const q = event.url.searchParams;
 	return json(
 		await spectra.list(actor, {
@@ -39,7 +40,7 @@ const itemJson = (item: spectra.BatchItem) => {
  * 201 with one entry per file, stored or refused; when every file is refused, their shared status (400/409/413/415).
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = event.locals.actor?.instrumentId != null ? event.locals.actor : requireActor(event, 'technician', 'chemometrician', 'admin');
+	const actor = event.locals.actor?.instrumentId != null ? event.locals.actor : requireActor(event, can.uploadSpectra);
 	const type = event.request.headers.get('content-type') ?? '';
 	if (!type.toLowerCase().startsWith('multipart/form-data')) {
 		return apiError(415, 'not-multipart', 'Send the spectra as multipart/form-data with one or more `file` fields');

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as suppliers from '$lib/server/services/suppliers';
@@ -10,7 +11,7 @@ export const GET: RequestHandler = handler(async (event) => {
 });
 
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'procurement', 'admin');
+	const actor = requireActor(event, can.manageSuppliers);
 	const body = await readJson(event.request);
 	const created = await suppliers.create(actor, suppliers.supplierSchema.parse(body), typeof body.reason === 'string' ? body.reason : undefined);
 	return json(created, { status: 201 });

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail, redirect } from '@sveltejs/kit';
 import { superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -10,7 +11,7 @@ import { buildFormSchema, toParams } from './schema';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load = (async (event) => {
-	requireUser(event, 'chemometrician', 'admin');
+	requireUser(event, can.buildModels);
 	const material = await materials.get(event.params.code);
 	const [classes, summary, list] = await Promise.all([materials.classes(material.id), library.summary(material.id), versions.listForMaterial(material.id)]);
 	// Start from the latest version's parameters, so a new build changes only what the user changes.
@@ -26,7 +27,7 @@ export const load = (async (event) => {
 
 export const actions = {
 	default: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.buildModels);
 		const material = await materials.get(event.params.code);
 		const form = await superValidate(event.request, zod(buildFormSchema));
 		if (!form.valid) return fail(400, { form });

@@ -1,3 +1,4 @@
+import { ANY_SIGNED_IN } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, requireActor } from '$lib/server/api';
 import * as library from '$lib/server/services/library';
@@ -6,7 +7,7 @@ import * as versions from '$lib/server/services/model-versions';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, 'technician', 'chemometrician', 'qa', 'procurement', 'admin');
+	requireActor(event, ANY_SIGNED_IN);
 	const material = await materials.get(event.params.id);
 	const [classes, librarySummary, modelVersions] = await Promise.all([materials.classes(material.id), library.summary(material.id), versions.listForMaterial(material.id)]);
 	return json({ ...materials.toPublic(material), classes, library: librarySummary, versions: modelVersions });

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail, redirect } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -32,8 +33,8 @@ export const load = (async (event) => {
 	const view = await versionView(id, event.url.searchParams);
 	return {
 		...view,
-		canEdit: hasRole(actor, 'chemometrician', 'admin'),
-		canApprove: hasRole(actor, 'qa') && view.version.builtBy.id !== actor.id,
+		canEdit: hasRole(actor, can.buildModels),
+		canApprove: hasRole(actor, can.approveModels) && view.version.builtBy.id !== actor.id,
 		isBuilder: view.version.builtBy.id === actor.id,
 		excludeForm: await superValidate(zod(excludeSchema), { id: 'exclude' }),
 		includeForm: await superValidate(zod(includeSchema), { id: 'include' }),
@@ -44,7 +45,7 @@ export const load = (async (event) => {
 
 export const actions = {
 	exclude: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.buildModels);
 		const form = await superValidate(event.request, zod(excludeSchema), { id: 'exclude' });
 		if (!form.valid) return fail(400, { excludeForm: form });
 		try {
@@ -55,7 +56,7 @@ export const actions = {
 		}
 	},
 	include: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.buildModels);
 		const form = await superValidate(event.request, zod(includeSchema), { id: 'include' });
 		if (!form.valid) return fail(400, { includeForm: form });
 		try {
@@ -66,12 +67,12 @@ export const actions = {
 		}
 	},
 	clear: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.buildModels);
 		await versions.clearPending(actor, await versionIdFor(event.params));
 		return { cleared: true };
 	},
 	rebuild: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.buildModels);
 		const form = await superValidate(event.request, zod(rebuildSchema), { id: 'rebuild' });
 		if (!form.valid) return fail(400, { rebuildForm: form });
 		let created: number;

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import { notFound } from '$lib/server/services/errors';
@@ -11,13 +12,13 @@ const idOf = (text: string) => {
 };
 
 export const GET: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'admin');
+	const actor = requireActor(event, can.administer);
 	return json({ tokens: await instruments.listTokens(actor, idOf(event.params.id)) });
 });
 
 /** { label } → 201 with `token`: the only time its text is shown; only its hash is stored. */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'admin');
+	const actor = requireActor(event, can.administer);
 	const body = await readJson(event.request);
 	return json(await instruments.createToken(actor, idOf(event.params.id), String(body.label ?? '')), { status: 201, headers: { 'cache-control': 'no-store' } });
 });

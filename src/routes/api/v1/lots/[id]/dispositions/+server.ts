@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as dispositions from '$lib/server/services/dispositions';
@@ -14,7 +15,7 @@ export const GET: RequestHandler = handler(async (event) => {
  * manifestation when the decision takes effect; 202 when a release of a failed lot now waits for a second signature.
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'qa');
+	const actor = requireActor(event, can.signDispositions);
 	const body = await readJson(event.request);
 	const result = await dispositions.dispose(actor, event.params.id, {
 		decision: String(body.decision ?? '') as dispositions.Decision,

@@ -1,3 +1,4 @@
+import { ANY_SIGNED_IN, can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, requireActor } from '$lib/server/api';
 import { invalid, ServiceError } from '$lib/server/services/errors';
@@ -9,7 +10,7 @@ const MAX_BYTES = 20 * 1024 * 1024;
 
 /** Every scan of the lot, with verdict and statistics (the same list GET /api/v1/lots/{id} holds). */
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, 'technician', 'chemometrician', 'qa', 'procurement', 'admin');
+	requireActor(event, ANY_SIGNED_IN);
 	const lot = await lots.get(event.params.id);
 	return json({ lotId: lot.id, internalLot: lot.internalLot, scans: lot.scans });
 });
@@ -19,7 +20,7 @@ export const GET: RequestHandler = handler(async (event) => {
  * `Authorization: Bearer <instrument token>` or a technician/admin session. 201 with the verdict and the lot's status.
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = event.locals.actor?.instrumentId != null ? event.locals.actor : requireActor(event, 'technician', 'admin');
+	const actor = event.locals.actor?.instrumentId != null ? event.locals.actor : requireActor(event, can.uploadScans);
 	if (!actor) throw new ServiceError(401, 'unauthenticated', 'Sign in, or send an instrument token');
 	const type = event.request.headers.get('content-type') ?? '';
 	if (!type.toLowerCase().startsWith('multipart/form-data')) throw new ServiceError(415, 'unsupported-media-type', 'Send multipart/form-data with the fields file and container');

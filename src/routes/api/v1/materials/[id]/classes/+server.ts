@@ -1,17 +1,18 @@
+import { ANY_SIGNED_IN, can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as materials from '$lib/server/services/materials';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, 'technician', 'chemometrician', 'qa', 'procurement', 'admin');
+	requireActor(event, ANY_SIGNED_IN);
 	const material = await materials.get(event.params.id);
 	return json({ rows: await materials.classes(material.id) });
 });
 
 /** { name, kind: "genuine" | "suspect", description } — chemometrician or admin. */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'chemometrician', 'admin');
+	const actor = requireActor(event, can.manageMaterials);
 	const material = await materials.get(event.params.id);
 	const body = await readJson(event.request);
 	const created = await materials.addClass(actor, material.id, materials.classSchema.parse(body), typeof body.reason === 'string' ? body.reason : undefined);

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { apiError, handler, requireActor } from '$lib/server/api';
 import * as library from '$lib/server/services/library';
@@ -5,7 +6,7 @@ import * as materials from '$lib/server/services/materials';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, 'chemometrician', 'qa', 'admin');
+	requireActor(event, can.readLibrary);
 	const material = await materials.get(event.params.id);
 	const q = event.url.searchParams;
 	return json(
@@ -33,7 +34,7 @@ const text = (form: FormData, name: string) => {
  * `class` (label for files without a class column), `supplier`, `supplierLot`, `instrument`. The instrument's axis unit applies when a file does not name its unit.
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'chemometrician', 'admin');
+	const actor = requireActor(event, can.curateLibrary);
 	const material = await materials.get(event.params.id);
 	let form: FormData;
 	try {

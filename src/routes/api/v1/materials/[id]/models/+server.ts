@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as materials from '$lib/server/services/materials';
@@ -5,7 +6,7 @@ import * as versions from '$lib/server/services/model-versions';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = handler(async (event) => {
-	requireActor(event, 'technician', 'chemometrician', 'qa', 'admin');
+	requireActor(event, can.readModels);
 	const material = await materials.get(event.params.id);
 	return json({ rows: await versions.listForMaterial(material.id) });
 });
@@ -15,7 +16,7 @@ export const GET: RequestHandler = handler(async (event) => {
  * groupBy, speLimit, genuine, note }. Queues a job and answers 201 { id, jobId }; poll GET /api/v1/models/{id}.
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'chemometrician', 'admin');
+	const actor = requireActor(event, can.buildModels);
 	const body = await readJson(event.request);
 	const created = await versions.createBuild(actor, event.params.id, body);
 	return json(created, { status: 201 });

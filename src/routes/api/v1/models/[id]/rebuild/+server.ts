@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as versions from '$lib/server/services/model-versions';
@@ -5,7 +6,7 @@ import type { RequestHandler } from './$types';
 
 /** { ...changed build parameters, note? }: a new draft with this version as parent; 201 { id, jobId }. */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'chemometrician', 'admin');
+	const actor = requireActor(event, can.buildModels);
 	const body = await readJson(event.request);
 	const { note, ...changes } = body;
 	return json(await versions.rebuild(actor, await versions.resolve(event.params.id), changes as never, { note: typeof note === 'string' ? note : undefined }), { status: 201 });

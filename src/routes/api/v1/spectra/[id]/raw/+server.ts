@@ -1,10 +1,11 @@
+import { can } from '$lib/permissions';
 import { handler, requireActor } from '$lib/server/api';
 import * as spectra from '$lib/server/services/spectra';
 import type { RequestHandler } from './$types';
 
 /** The exact uploaded bytes, with the original file name; the SHA-256 lets the receiver check them. */
 export const GET: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'technician', 'chemometrician', 'qa', 'admin');
+	const actor = requireActor(event, can.readSpectra);
 	const file = await spectra.raw(actor, event.params.id);
 	const ascii = file.fileName.replace(/[^\x20-\x7e]|["\\]/g, '_');
 	return new Response(new Uint8Array(file.bytes.buffer as ArrayBuffer, file.bytes.byteOffset, file.bytes.byteLength), {

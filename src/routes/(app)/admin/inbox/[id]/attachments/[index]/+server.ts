@@ -1,9 +1,10 @@
+import { can } from '$lib/permissions';
 import { requireUser } from '$lib/server/guard';
 import * as inbox from '$lib/server/inbox';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = async (event) => {
-	requireUser(event, 'admin');
+	requireUser(event, can.administer);
 	inbox.requireInbox();
 	const a = await inbox.attachment(Number(event.params.id), Number(event.params.index));
 	return new Response(new Uint8Array(a.content), {

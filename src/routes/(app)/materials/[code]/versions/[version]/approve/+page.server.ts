@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { fail, redirect } from '@sveltejs/kit';
 import { superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
@@ -8,7 +9,7 @@ import { versionIdFor } from '../version.server';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load = (async (event) => {
-	const actor = requireUser(event, 'qa');
+	const actor = requireUser(event, can.approveModels);
 	const id = await versionIdFor(event.params);
 	const version = await versions.get(id);
 	const list = await versions.listForMaterial(version.materialId);
@@ -25,7 +26,7 @@ export const load = (async (event) => {
 
 export const actions = {
 	default: async (event) => {
-		const actor = requireUser(event, 'qa');
+		const actor = requireUser(event, can.approveModels);
 		const id = await versionIdFor(event.params);
 		const form = await superValidate(event.request, zod(versions.approvalSchema));
 		if (!form.valid) {

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, requireActor } from '$lib/server/api';
 import { notFound } from '$lib/server/services/errors';
@@ -6,7 +7,7 @@ import type { RequestHandler } from './$types';
 
 /** Revokes the token (kept, with its revocation time, for the record); ?reason= goes into the audit trail. */
 export const DELETE: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'admin');
+	const actor = requireActor(event, can.administer);
 	const tokenId = Number(event.params.tokenId);
 	const instrumentId = Number(event.params.id);
 	const tokens = Number.isInteger(tokenId) ? await instruments.listTokens(actor, instrumentId) : [];
