@@ -44,6 +44,8 @@ export const can = {
 	requestSupplierStatus: ['procurement'],
 	cosignSupplierStatus: ['qa'],
 	handleAlerts: ['procurement', 'admin'],
+	proposeInvalidation: ['technician', 'chemometrician', 'admin'],
+	decideInvalidation: ['qa'],
 	administer: ['admin']
 } as const satisfies Record<string, readonly Role[]>;
 export type Capability = keyof typeof can;

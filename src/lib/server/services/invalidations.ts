@@ -3,6 +3,7 @@
 // chemometrician or admin proposes it with a cause category and a description; a QA user who did not propose it
 // approves or refuses it with an electronic signature. Each step is one transaction with its audit event; nothing is
 // deleted, and every step stays visible on the lot page, in the API, on the alert and on the certificate.
+import { can } from '../../permissions';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { sequelize, transaction } from '../db';
@@ -36,7 +37,7 @@ export const decisionSchema = signatures.signatureFieldsSchema;
 const MATERIAL = ['genuine', 'suspect', 'unknown', 'not-this-material'];
 
 function requireProposer(actor: Actor) {
-	if (actor.id == null || !hasRole(actor, 'technician', 'chemometrician', 'admin')) throw forbidden('Only a technician, a chemometrician or an admin proposes an invalidation');
+	if (actor.id == null || !hasRole(actor, can.proposeInvalidation)) throw forbidden('Only a technician, a chemometrician or an admin proposes an invalidation');
 }
 
 function parseScanId(scanId: number | string): number {
@@ -131,7 +132,7 @@ function signedRecord(v: InvalidationView, scan: ScanRow, decision: 'approve' | 
 
 /** A QA user who did not propose it approves (the scan stops counting) or refuses (the result stands), with a signature. */
 export async function decide(actor: Actor, lotRef: number | string, scanRef: number | string, decision: 'approve' | 'refuse', input: z.input<typeof decisionSchema>) {
-	if (actor.id == null || !hasRole(actor, 'qa')) throw forbidden('Only a QA manager approves or refuses an invalidation');
+	if (actor.id == null || !hasRole(actor, can.decideInvalidation)) throw forbidden('Only a QA manager approves or refuses an invalidation');
 	const data = decisionSchema.parse(input ?? {});
 	const scanId = parseScanId(scanRef);
 	const lotId = await lots.resolve(lotRef);

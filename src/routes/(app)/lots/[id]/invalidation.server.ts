@@ -1,5 +1,6 @@
 // The lot page's invalidation actions (?/proposeInvalidation, ?/approveInvalidation, ?/refuseInvalidation): read the
 // form, call the invalidation service, and put any refusal beside the scan's form.
+import { can } from '$lib/permissions';
 import { fail, type RequestEvent } from '@sveltejs/kit';
 import { requireUser } from '$lib/server/guard';
 import { hasRole, type Actor } from '$lib/server/services/actor';
@@ -11,8 +12,8 @@ export function invalidationPageData(actor: Actor) {
 		causes: invalidations.INVALIDATION_CAUSES.map((c) => ({ value: c, label: invalidations.CAUSE_LABELS[c] })),
 		approveMeanings: invalidations.APPROVE_MEANINGS,
 		refuseMeanings: invalidations.REFUSE_MEANINGS,
-		canPropose: hasRole(actor, 'technician', 'chemometrician', 'admin'),
-		canDecide: hasRole(actor, 'qa'),
+		canPropose: hasRole(actor, can.proposeInvalidation),
+		canDecide: hasRole(actor, can.decideInvalidation),
 		actorId: actor.id
 	};
 }
@@ -26,7 +27,7 @@ function refusal(scanId: string, error: unknown, values: Record<string, string>)
 }
 
 export async function proposeAction(event: RequestEvent<{ id: string }>) {
-	const actor = requireUser(event, 'technician', 'chemometrician', 'admin');
+	const actor = requireUser(event, can.proposeInvalidation);
 	const form = await event.request.formData();
 	const scanId = String(form.get('scanId') ?? '');
 	const cause = String(form.get('cause') ?? '');
@@ -40,7 +41,7 @@ export async function proposeAction(event: RequestEvent<{ id: string }>) {
 }
 
 export async function decideAction(event: RequestEvent<{ id: string }>, decision: 'approve' | 'refuse') {
-	const actor = requireUser(event, 'qa');
+	const actor = requireUser(event, can.decideInvalidation);
 	const form = await event.request.formData();
 	const scanId = String(form.get('scanId') ?? '');
 	const input = { password: String(form.get('password') ?? ''), meaning: String(form.get('meaning') ?? ''), reason: String(form.get('reason') ?? '') };

@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as invalidations from '$lib/server/services/invalidations';
@@ -8,7 +9,7 @@ import type { RequestHandler } from './$types';
  * chemometrician or admin proposes invalidating this scan's result. 201 { id, state: "proposed", … }.
  */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'technician', 'chemometrician', 'admin');
+	const actor = requireActor(event, can.proposeInvalidation);
 	const body = await readJson(event.request);
 	const v = await invalidations.propose(actor, event.params.id, event.params.scanId, {
 		cause: body.cause as invalidations.InvalidationCause,

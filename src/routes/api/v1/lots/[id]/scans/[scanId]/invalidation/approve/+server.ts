@@ -1,3 +1,4 @@
+import { can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as invalidations from '$lib/server/services/invalidations';
@@ -5,7 +6,7 @@ import type { RequestHandler } from './$types';
 
 /** { password, meaning, reason } — a QA user who did not propose it approves the proposed invalidation with a signature. */
 export const POST: RequestHandler = handler(async (event) => {
-	const actor = requireActor(event, 'qa');
+	const actor = requireActor(event, can.decideInvalidation);
 	const body = await readJson(event.request);
 	const out = await invalidations.approve(actor, event.params.id, event.params.scanId, {
 		password: String(body.password ?? ''),
