@@ -184,4 +184,32 @@ describe('result policy', () => {
 		expect((await alerts.list({ lot: lot.id })).rows).toEqual([]);
 		expect((await lots.get(lot.id)).containers[0]).toMatchObject({ result: 'unusable', decided: false });
 	});
+
+	it('replicates k = 3 with one failing: the container fails; the others need all three genuine; averaging never happens', async () => {
+		const materials = await import('../../src/lib/server/services/materials');
+		const { rootActor } = await import('../support/factories');
+		const fx3 = await approvedMaterial();
+		await expect(materials.setReplicates(rootActor, fx3.materialCode, { replicates: 6, reason: 'too many' })).rejects.toThrow(/At most 5/);
+		await expect(materials.setReplicates(tech.actor, fx3.materialCode, { replicates: 3, reason: 'not mine' })).rejects.toMatchObject({ status: 403 });
+		expect((await materials.setReplicates(rootActor, fx3.materialCode, { replicates: 3, reason: 'repack and turn: three presentations per container' })).replicates).toBe(3);
+		const lot = await lots.create(tech.actor, { material: fx3.materialCode, supplier: fx3.supplierCode, supplierLot: unique('K3'), containers: 2, receivedAt: today() });
+		expect(lot.plan.replicates).toBe(3);
+		const f = (kind: Parameters<typeof jcamp>[0], seed: number) => ({ bytes: jcamp(kind, fx3.axis, seed, `K${seed}.jdx`), fileName: `K${seed}.jdx` });
+		await scans.add(tech.actor, lot.id, { ...f('genuine', 97001), container: 1 });
+		await scans.add(tech.actor, lot.id, { ...f('genuine', 97002), container: 1 });
+		let view = await lots.get(lot.id);
+		expect(view.containers[0]).toMatchObject({ result: 'awaiting-scan', decided: false, replicates: { done: 2, required: 3 } });
+		await scans.add(tech.actor, lot.id, { ...f('genuine', 97003), container: 1 });
+		await scans.add(tech.actor, lot.id, { ...f('genuine', 97011), container: 2 });
+		const failing = await scans.add(tech.actor, lot.id, { ...f('diluted-starch', 97012), container: 2 });
+		expect(failing.verdict).toBe('suspect');
+		const third = await scans.add(tech.actor, lot.id, { ...f('genuine', 97013), container: 2 });
+		expect(third.status).toMatchObject({ status: 'screened', identity: 'fails' });
+		view = await lots.get(lot.id);
+		expect(view.containers[0]).toMatchObject({ result: 'genuine', decided: true, replicates: { done: 3, required: 3 } });
+		expect(view.containers[1]).toMatchObject({ result: 'suspect', decided: true, replicates: { done: 3, required: 3 } });
+		expect(view.identity).toBe('fails');
+		// Another material's lot keeps its own k = 1 (k is recorded in each lot's plan at receipt).
+		expect((await lots.get((await receive(1)).id)).replicates).toBe(1);
+	});
 });

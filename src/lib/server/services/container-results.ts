@@ -114,7 +114,8 @@ export function latestByScan(list: InvalidationView[]): Map<number, Invalidation
 }
 
 export async function replicatesOf(lotId: number, tx?: Transaction): Promise<number> {
-	const rows = await sequelize().query<{ replicates: number }>('SELECT m.replicates FROM lots l JOIN materials m ON m.id = l.material_id WHERE l.id = :lotId', {
+	// The k recorded in the lot's plan at receipt; lots received before replicates existed need one scan.
+	const rows = await sequelize().query<{ replicates: number }>("SELECT coalesce((l.plan->>'replicates')::integer, 1) AS replicates FROM lots l WHERE l.id = :lotId", {
 		replacements: { lotId },
 		type: QueryTypes.SELECT,
 		transaction: tx

@@ -63,6 +63,8 @@ export interface StoredPlan extends Omit<SamplingPlan, 'sampled'> {
 	justification: string | null;
 	/** Material policy and supplier status at receipt: the facts the plan rests on. */
 	policy: string;
+	/** Replicate scans per container required at receipt (material's sampling policy; absent on lots received before it existed: 1). */
+	replicates?: number;
 	supplierStatus: string;
 }
 
@@ -94,8 +96,8 @@ function requireReceiver(actor: Actor) {
 
 async function resolveMaterial(r: string | number, tx?: Transaction) {
 	const byId = typeof r === 'number' || /^\d+$/.test(r);
-	const rows = await sequelize().query<{ id: number; code: string; name: string; technique: string; sampling_policy: string; sampling_justification: string | null }>(
-		`SELECT id, code, name, technique, sampling_policy, sampling_justification FROM materials WHERE ${byId ? 'id = :r' : 'code = upper(:r)'}`,
+	const rows = await sequelize().query<{ id: number; code: string; name: string; technique: string; sampling_policy: string; sampling_justification: string | null; replicates: number }>(
+		`SELECT id, code, name, technique, sampling_policy, sampling_justification, replicates FROM materials WHERE ${byId ? 'id = :r' : 'code = upper(:r)'}`,
 		{ replacements: { r: byId ? Number(r) : String(r) }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	if (!rows[0]) throw invalid(`Material "${r}" is not registered`, 'material');
@@ -147,6 +149,7 @@ export async function create(actor: Actor, input: LotInput, reason?: string) {
 			label: PLAN_LABELS[plan.kind],
 			justification: planIn.kind === 'every' ? (justification || null) : justification,
 			policy: material.sampling_policy,
+			replicates: Number(material.replicates ?? 1),
 			supplierStatus: supplier.status
 		};
 		const flag = supplier.status === 'blocked' || supplier.status === 'on-watch' ? supplier.status : null;

@@ -16,6 +16,8 @@ export const materialSchema = z.object({
 	technique: z.enum(['NIR', 'Raman', 'mid-IR'], { errorMap: () => ({ message: 'Choose NIR, Raman or mid-IR' }) }),
 	samplingPolicy: z.enum(['every-container', 'reduced-allowed']).default('every-container'),
 	samplingJustification: z.string().trim().max(2000).optional(),
+	/** Replicate scans per container, k = 1..5 (never averaged: docs/methods.md §20). */
+	replicates: z.coerce.number({ invalid_type_error: 'Replicates must be a number' }).int('Replicates must be a whole number').min(1, 'At least 1 replicate').max(5, 'At most 5 replicates').default(1),
 	recipients: z.array(z.string().trim().email('Each recipient must be an e-mail address')).max(50).default([])
 });
 export type MaterialInput = z.input<typeof materialSchema>;
@@ -39,6 +41,7 @@ export function toPublic(m: Material) {
 		technique: m.technique,
 		samplingPolicy: m.samplingPolicy,
 		samplingJustification: m.samplingJustification,
+		replicates: m.replicates ?? 1,
 		recipients: m.recipients,
 		createdAt: m.createdAt.toISOString()
 	};
@@ -101,4 +104,28 @@ export async function list() {
 export async function classes(materialId: number) {
 	const rows = await models().MaterialClass.findAll({ where: { materialId }, order: [['kind', 'ASC'], ['name', 'ASC']] });
 	return rows.map(classToPublic);
+}
+
+export const replicatesSchema = z.object({
+	replicates: materialSchema.shape.replicates,
+	reason: z.string().trim().min(3, 'Write why the replicate count changes').max(2000)
+});
+
+/**
+ * Sets the material's replicate scans per container (k = 1..5). Lots already received keep the k recorded in their
+ * plan at receipt; new lots take the new k.
+ */
+export async function setReplicates(actor: Actor, idOrCode: number | string, input: z.input<typeof replicatesSchema>) {
+	requireMethodOwner(actor);
+	const data = replicatesSchema.parse(input);
+	const found = await get(idOrCode);
+	return transaction(async (tx) => {
+		const material = await models().Material.findByPk(found.id, { transaction: tx, lock: tx.LOCK.UPDATE });
+		if (!material) throw notFound(`Material ${idOrCode}`);
+		const before = material.replicates ?? 1;
+		if (before === data.replicates) return toPublic(material);
+		await material.update({ replicates: data.replicates }, { transaction: tx });
+		await audit.record(tx, actor, { action: 'material.replicates-changed', entity: 'material', entityId: material.id, before: { replicates: before }, after: { replicates: data.replicates }, reason: data.reason });
+		return toPublic(material);
+	});
 }

@@ -41,6 +41,8 @@ export class Material extends Model {
 	declare technique: Technique;
 	declare samplingPolicy: 'every-container' | 'reduced-allowed';
 	declare samplingJustification: string | null;
+	/** Replicate scans per container (1–5): a container is genuine only when all are genuine. */
+	declare replicates: number;
 	declare recipients: string[];
 	declare createdAt: Date;
 }
@@ -165,6 +167,7 @@ export function defineModels(sequelize: Sequelize) {
 			technique: { type: TEXT, allowNull: false },
 			samplingPolicy: { type: TEXT, allowNull: false, defaultValue: 'every-container' },
 			samplingJustification: { type: TEXT },
+			replicates: { type: INTEGER, allowNull: false, defaultValue: 1 },
 			recipients: { type: ARRAY(TEXT), allowNull: false, defaultValue: [] },
 			createdAt: createdAt()
 		},

@@ -1,5 +1,6 @@
 import { can } from '$lib/permissions';
 import { fail } from '@sveltejs/kit';
+import { ZodError } from 'zod';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { requireUser } from '$lib/server/guard';
@@ -51,6 +52,18 @@ export const load = (async (event) => {
 }) satisfies PageServerLoad;
 
 export const actions = {
+	setReplicates: async (event) => {
+		const actor = requireUser(event, 'chemometrician', 'admin');
+		const data = await event.request.formData();
+		try {
+			const updated = await materials.setReplicates(actor, event.params.code, { replicates: String(data.get('replicates') ?? '') as unknown as number, reason: String(data.get('reason') ?? '') });
+			return { replicatesSet: updated.replicates };
+		} catch (error) {
+			if (error instanceof ServiceError) return fail(error.status === 403 ? 403 : 400, { replicatesError: error.message });
+			if (error instanceof ZodError) return fail(400, { replicatesError: error.issues[0]?.message ?? 'Invalid input' });
+			throw error;
+		}
+	},
 	addClass: async (event) => {
 		const actor = requireUser(event, can.manageMaterials);
 		const material = await materials.get(event.params.code);
