@@ -7,7 +7,7 @@ import { authHandle, SESSION_ABSOLUTE_SECONDS, type LotgateSession } from '$lib/
 import { closeDatabase, databaseIsUp, markDatabaseDown, models } from '$lib/server/db';
 import { acceptedRequestId, bodyLimit, isConnectionError, limitBody } from '$lib/server/request-limits';
 import { plainPage } from '$lib/server/plain-page';
-import { startWorkers, stopJobs } from '$lib/server/jobs';
+import { installJobs, startWorkers, stopJobs } from '$lib/server/jobs';
 import { instrumentForToken } from '$lib/server/tokens';
 
 const PUBLIC_PREFIXES = ['/login', '/auth/', '/health', '/_app/', '/favicon'];
@@ -168,8 +168,8 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 };
 
 export const init: ServerInit = async () => {
-	// Queues are declared by their workflow modules; importing them registers their workers.
-	await import('$lib/server/workers');
+	// Every job in $lib/server/jobs (JOBS) registers its queue and producer-side wiring (the mail outbox hand-off).
+	installJobs();
 	// In the background, retrying: the server must come up (and answer 503) even while the database is down.
 	const start = () =>
 		startWorkers().catch((error) => {

@@ -16,6 +16,8 @@ import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
 import * as library from './library';
 import * as materials from './materials';
 import * as signatures from './signatures';
+import { enqueue } from '../jobs/boss';
+import { QUEUES } from '../jobs/queues';
 
 export const APPROVAL_MEANING = 'approved for screening';
 export const EXCLUSION_CATEGORIES = ['instrument-fault', 'mislabelled', 'sample-preparation', 'statistical-outlier', 'other'] as const;
@@ -478,9 +480,7 @@ async function start(id: number, inline?: boolean) {
 		await runBuild(id);
 		return { id, jobId: null as string | null };
 	}
-	const { enqueue } = await import('../jobs');
-	const { MODEL_BUILD_QUEUE } = await import('../jobs/model-build');
-	const jobId = await enqueue(MODEL_BUILD_QUEUE, { versionId: id });
+	const jobId = await enqueue(QUEUES.modelBuild, { versionId: id });
 	await sequelize().query('UPDATE model_versions SET job_id = :jobId WHERE id = :id', { replacements: { id, jobId } });
 	return { id, jobId: jobId as string | null };
 }

@@ -1,8 +1,19 @@
-// Background work (model builds, certificates, mail) runs as pg-boss jobs, so more workers can join one PostgreSQL.
+// The pg-boss connection: enqueue from anywhere, work the queues of the registered jobs. Imports nothing of the app
+// but the database URL, so services may import it statically without a cycle.
 import PgBoss from 'pg-boss';
-import { databaseUrl } from './db';
+import { databaseUrl } from '../db';
+import type { QueueName } from './queues';
 
 export type JobHandler = (data: Record<string, unknown>, job: { id: string }) => Promise<void>;
+
+/** One background job: its queue, its retry policy and its handler. Every job module exports one (see jobs/index.ts). */
+export interface Job {
+	queue: QueueName;
+	retryLimit: number;
+	handler: JobHandler;
+	/** Producer-side wiring run once when the server starts (e.g. the mail outbox hand-off and sweep). */
+	install?: () => void;
+}
 
 let instance: Promise<PgBoss> | null = null;
 const handlers = new Map<string, { handler: JobHandler; retryLimit: number }>();
@@ -24,10 +35,10 @@ async function boss(): Promise<PgBoss> {
 	return instance;
 }
 
-/** Each workflow declares its queue once (at module load), with its retry policy. */
-export function defineQueue(name: string, handler: JobHandler, { retryLimit = 0 } = {}) {
-	handlers.set(name, { handler, retryLimit });
-	if (working) void work(name);
+/** Registers a job's queue with its retry policy (jobs/index.ts does this for every job). */
+export function register(job: Job) {
+	handlers.set(job.queue, { handler: job.handler, retryLimit: job.retryLimit });
+	if (working) void work(job.queue);
 }
 
 async function work(name: string) {
@@ -39,7 +50,7 @@ async function work(name: string) {
 	});
 }
 
-export async function enqueue(name: string, data: Record<string, unknown>, options: PgBoss.SendOptions = {}): Promise<string> {
+export async function enqueue(name: QueueName, data: Record<string, unknown>, options: PgBoss.SendOptions = {}): Promise<string> {
 	const b = await boss();
 	const entry = handlers.get(name);
 	await b.createQueue(name, { name, retryLimit: entry?.retryLimit ?? 0, retryDelay: 5, retryBackoff: true });
@@ -48,7 +59,7 @@ export async function enqueue(name: string, data: Record<string, unknown>, optio
 	return id;
 }
 
-/** Starts workers for every declared queue (the app server does this at start-up). */
+/** Starts workers for every registered queue (the app server does this at start-up). */
 export async function startWorkers() {
 	working = true;
 	for (const name of handlers.keys()) await work(name);
