@@ -53,7 +53,7 @@ export const load = (async (event) => {
 
 export const actions = {
 	setReplicates: async (event) => {
-		const actor = requireUser(event, 'chemometrician', 'admin');
+		const actor = requireUser(event, can.manageMaterials);
 		const data = await event.request.formData();
 		try {
 			const updated = await materials.setReplicates(actor, event.params.code, { replicates: String(data.get('replicates') ?? '') as unknown as number, reason: String(data.get('reason') ?? '') });
