@@ -32,3 +32,7 @@ export type { PlsdaModel, PlsFit, DiscriminantOutcome } from './plsda';
 export { plsFit, plsPredict, plsTransform, fitPlsda, predictPlsda } from './plsda';
 export type { KnnModel } from './knn';
 export { fitKnn, predictKnn } from './knn';
+export { individualsLimits, westernElectric, D2_N2, D4_N2, RULE_TEXT } from './control-chart';
+export type { IndividualsLimits, RuleHit, WeRule } from './control-chart';
+export { ewma, EWMA_DEFAULT } from './ewma';
+export type { EwmaPoint } from './ewma';
