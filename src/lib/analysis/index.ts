@@ -36,3 +36,5 @@ export { individualsLimits, westernElectric, D2_N2, D4_N2, RULE_TEXT } from './c
 export type { IndividualsLimits, RuleHit, WeRule } from './control-chart';
 export { ewma, EWMA_DEFAULT } from './ewma';
 export type { EwmaPoint } from './ewma';
+export { driftSeries, DRIFT_DEFAULTS } from './drift';
+export type { DriftLotInput, DriftLotResult, DriftSeries } from './drift';

@@ -49,7 +49,7 @@ function requireProcurement(actor: Actor) {
 	if (!hasRole(actor, can.handleAlerts)) throw forbidden('Only procurement (or an admin) handles supplier alerts');
 }
 
-const verdictText = (f: { verdict: string; profile?: string | null }) => (f.verdict === 'suspect' ? `suspect (${f.profile ?? 'profile'})` : f.verdict === 'not-this-material' ? 'not this material' : f.verdict);
+const verdictText = (f: { verdict: string; profile?: string | null }) => (f.verdict === 'drift' ? 'drift signal' : f.verdict === 'suspect' ? `suspect (${f.profile ?? 'profile'})` : f.verdict === 'not-this-material' ? 'not this material' : f.verdict);
 
 /**
  * Called by the scan workflow inside its transaction for every screened scan. Opens one live alert per lot, adds later
@@ -67,7 +67,7 @@ export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFindi
 	if (!lot) throw notFound(`Lot ${scan.lotId}`);
 	const finding = { scanId: scan.id, container: scan.container, verdict: scan.verdict, profile: scan.profile ?? null, reason: scan.reason ?? null, severity: level.severity };
 	const live = await sequelize().query<{ id: number; severity_rank: number; severity: Severity; findings: unknown[] }>(
-		"SELECT id, severity_rank, severity, findings FROM alerts WHERE lot_id = :lotId AND state <> 'closed' FOR UPDATE",
+		"SELECT id, severity_rank, severity, findings FROM alerts WHERE lot_id = :lotId AND kind = 'verdict' AND state <> 'closed' FOR UPDATE",
 		{ replacements: { lotId: scan.lotId }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	let alertId: number;
@@ -146,6 +146,8 @@ async function procurementRecipients(tx: Transaction): Promise<string[]> {
 
 export interface AlertView {
 	id: number;
+	/** 'verdict': a non-genuine scan; 'drift': the lot's statistic broke a control-chart rule (./drift.ts). */
+	kind: 'verdict' | 'drift';
 	state: AlertState;
 	severity: Severity;
 	severityRank: number;
@@ -154,7 +156,7 @@ export interface AlertView {
 	supplier: { id: number; code: string; name: string };
 	material: { id: number; code: string };
 	lot: { id: number; internalLot: string; supplierLot: string };
-	scanId: number;
+	scanId: number | null;
 	findings: { scanId: number; container: number; verdict: string; profile: string | null; reason: string | null; severity: Severity }[];
 	/** Invalidations proposed for the scans behind the findings: the alert stays, and shows them (issue #11). */
 	invalidations: { scanId: number; container: number; state: 'proposed' | 'approved' | 'refused'; cause: string; description: string; proposedBy: string; decidedBy: string | null; decidedAt: string | null }[];
@@ -176,6 +178,7 @@ function toView(r: Record<string, unknown>): AlertView {
 	const iso = (d: unknown) => new Date(d as Date).toISOString();
 	return {
 		id: Number(r.id),
+		kind: (r.kind as 'verdict' | 'drift' | undefined) ?? 'verdict',
 		state: r.state as AlertState,
 		severity: r.severity as Severity,
 		severityRank: Number(r.severity_rank),
@@ -184,7 +187,7 @@ function toView(r: Record<string, unknown>): AlertView {
 		supplier: { id: Number(r.supplier_id), code: r.supplier_code as string, name: r.supplier_name as string },
 		material: { id: Number(r.material_id), code: r.material_code as string },
 		lot: { id: Number(r.lot_id), internalLot: r.internal_lot as string, supplierLot: r.supplier_lot as string },
-		scanId: Number(r.scan_id),
+		scanId: r.scan_id == null ? null : Number(r.scan_id),
 		findings: (r.findings as AlertView['findings']) ?? [],
 		invalidations: ((r.invalidations as AlertView['invalidations']) ?? []).map((v) => ({ ...v, decidedAt: v.decidedAt ? new Date(v.decidedAt).toISOString() : null })),
 		openedAt: iso(r.opened_at),

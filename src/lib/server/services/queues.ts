@@ -2,6 +2,7 @@ import type { Role } from '$lib/permissions';
 import type { Actor } from './actor';
 import * as alerts from './alerts';
 import * as dispositions from './dispositions';
+import * as drift from './drift';
 import * as lots from './lots';
 import * as modelVersions from './model-versions';
 import * as supplierStatus from './supplier-status';
@@ -38,6 +39,7 @@ async function lotItems(status: 'awaiting-scans' | 'screened'): Promise<QueueIte
 const QUEUES: QueueDefinition[] = [
 	{ key: 'awaiting-scans', role: 'technician', title: 'Lots awaiting scans', empty: 'No lot is waiting for scans.', action: { href: '/lots/new', label: 'Receive a lot' }, items: () => lotItems('awaiting-scans') },
 	{ key: 'model-drafts', role: 'chemometrician', title: 'Model drafts', empty: 'No draft model version is open.', action: { href: '/materials', label: 'Go to materials' }, items: (actor) => modelVersions.queueItems('chemometrician', actor) },
+	{ key: 'drift-signals', role: 'chemometrician', title: 'Supplier drift signals', empty: 'No supplier is drifting.', action: { href: '/suppliers', label: 'Suppliers' }, items: () => drift.queueItems() },
 	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.', items: async (actor) => [...(await lotItems('screened')), ...(await dispositions.queueItems(actor)), ...(await supplierStatus.queueItems(actor)), ...(await modelVersions.queueItems('qa', actor))] },
 	{ key: 'supplier-alerts', role: 'procurement', title: 'Open supplier alerts', empty: 'No supplier alert is open.', action: { href: '/alerts', label: 'All alerts' }, items: () => alerts.queueItems() },
 	{ key: 'admin', role: 'admin', title: 'Administration', empty: 'Users, instruments and their tokens.', action: { href: '/admin', label: 'Open admin' } },

@@ -10,6 +10,7 @@ import { hasRole, type Actor } from './actor';
 import { prepareStored } from './artefact-store';
 import * as alerts from './alerts';
 import * as audit from './audit';
+import * as drift from './drift';
 import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
 import * as containerResults from './container-results';
 import * as lots from './lots';
@@ -254,6 +255,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		});
 		// A non-genuine verdict opens (or raises) the supplier alert in this same transaction.
 		await alerts.openForScan(tx, actor, { id: scan.id, lotId, container, verdict, profile: result?.profile ?? null, reason });
+		await drift.evaluateLot(tx, actor, lotId);
 		return { scanId: scan.id, verdict, profile: result?.profile ?? null, ambiguous: result?.ambiguous ?? false, reason, modelVersion: result ? { id: model!.versionId, label: model!.label } : null, spectrumId: stored.id, sha256: stored.sha256, title: stored.title, status };
 	});
 	return { ...outcome, lotId, container, fileName: file.fileName };
@@ -363,6 +365,7 @@ export async function rescreen(actor: Actor, lotRef: number | string, reason = '
 		}
 		await audit.record(tx, actor, { action: 'lot.rescreened', entity: 'lot', entityId: lotId, after: { modelVersion: model.label, scans: added }, reason });
 		const status = await recomputeStatus(tx, lotId, actor);
+		await drift.evaluateLot(tx, actor, lotId);
 		return { lotId, scans: added, status };
 	});
 }

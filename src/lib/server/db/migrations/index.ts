@@ -8,6 +8,7 @@ import disposition from './006-disposition';
 import sessionsAndDuties from './020-sessions-and-duties';
 import resultIntegrity from './030-result-integrity';
 import auditorRole from './060-auditor-role';
+import supplierDrift from './080-supplier-drift';
 
 export interface Migration {
 	name: string;
@@ -16,4 +17,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity, auditorRole];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity, auditorRole, supplierDrift];

@@ -3,6 +3,7 @@ import { fail } from '@sveltejs/kit';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import { ServiceError } from '$lib/server/services/errors';
+import * as drift from '$lib/server/services/drift';
 import * as instruments from '$lib/server/services/instruments';
 import * as scans from '$lib/server/services/scans';
 import { SCREENING_CAUTION } from '$lib/caution';
@@ -21,7 +22,8 @@ export const load = (async (event) => {
 		canScan: hasRole(actor, can.uploadScans) && !lot.closed,
 		instruments: (await instruments.list()).filter((i) => i.active).map((i) => ({ id: i.id, name: i.name, technique: i.technique })),
 		disposition: await dispositionPanelData(actor, lot),
-		invalidation: { ...invalidationPageData(actor), open: !lot.closed }
+		invalidation: { ...invalidationPageData(actor), open: !lot.closed },
+		driftSignal: await drift.forLot(lot.id)
 	};
 }) satisfies PageServerLoad;
 

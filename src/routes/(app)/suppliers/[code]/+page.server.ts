@@ -6,6 +6,7 @@ import { z } from 'zod';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import { ServiceError } from '$lib/server/services/errors';
+import * as drift from '$lib/server/services/drift';
 import * as scorecards from '$lib/server/services/scorecards';
 import * as signatures from '$lib/server/services/signatures';
 import * as supplierStatus from '$lib/server/services/supplier-status';
@@ -30,6 +31,9 @@ export const load = (async (event) => {
 	if (pending) declineForm.data.requestId = pending.id;
 	return {
 		card,
+		driftCharts: await drift.chartsForSupplier(card.supplier.code),
+		canRestartDrift: hasRole(actor, 'chemometrician'),
+		restartForm: await superValidate(zod(drift.restartSchema), { id: 'restart-drift' }),
 		requests,
 		pending,
 		canRequest: hasRole(actor, can.requestSupplierStatus) && !pending,
@@ -56,6 +60,17 @@ function refuse(form: SuperValidated<any, any>, e: unknown) {
 }
 
 export const actions = {
+	restartDrift: async (event) => {
+		const actor = requireUser(event, 'chemometrician');
+		const form = await superValidate(event.request, zod(drift.restartSchema), { id: 'restart-drift' });
+		if (!form.valid) return fail(400, { form });
+		try {
+			const r = await drift.restartBaseline(actor, event.params.code, form.data);
+			return message(form, `History restarted after ${r.afterLot}: the chart collects 5 new lots.`);
+		} catch (e) {
+			return refuse(form, e);
+		}
+	},
 	requestStatus: async (event) => {
 		const actor = requireUser(event, can.requestSupplierStatus);
 		const form = await superValidate(event.request, zod(supplierStatus.requestSchema), { id: 'request-status' });
