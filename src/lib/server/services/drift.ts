@@ -1,7 +1,7 @@
 // Supplier drift: per supplier and material, a lot statistic on an individuals chart against the supplier's own
 // history of accepted lots (pure computation in $lib/analysis/drift.ts; docs/methods.md §16).
 //
-// Lot statistic: the mean, over the lot's counted scans (latest valid scan of each container) that carry the genuine
+// Lot statistic: the mean, over the lot's counted scans (every valid, non-invalidated scan) that carry the genuine
 // class model's distances, of c/c_crit of that genuine class model; the mean h/h₀ and v/v₀ are kept beside it as
 // evidence of which distance moves. A lot enters the chart once its screening is complete.
 //
@@ -110,12 +110,14 @@ async function lotStats(supplierId: number, materialId: number, tx?: Transaction
 		{ replacements: { supplierId, materialId }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	if (!lotRows.length) return [];
-	// The counted scan of each sampled container: its latest valid one (as the lot status counts them).
+	// The counted scans: every valid scan of a sampled container that no approved invalidation has set aside (the
+	// result policy of ./scans.ts: a later scan never overwrites an earlier one).
 	const counted = await sequelize().query<{ lot_id: number; model_version_id: number | null; classes: Record<string, { c: number; cCrit: number; h: number; v: number }> | null }>(
-		`SELECT DISTINCT ON (sc.lot_id, sc.container) sc.lot_id, sc.model_version_id, sc.result->'classes' AS classes
+		`SELECT sc.lot_id, sc.model_version_id, sc.result->'classes' AS classes
 		   FROM scans sc JOIN lots l ON l.id = sc.lot_id
 		  WHERE sc.lot_id IN (:lotIds) AND sc.verdict IN (:valid) AND sc.container = ANY(l.sampled)
-		  ORDER BY sc.lot_id, sc.container, sc.id DESC`,
+		    AND NOT EXISTS (SELECT 1 FROM scan_invalidations i WHERE i.scan_id = sc.id AND i.state = 'approved')
+		  ORDER BY sc.lot_id, sc.id`,
 		{ replacements: { lotIds: lotRows.map((l) => Number(l.id)), valid: VALID_VERDICTS }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	const acc = new Map<number, { r: number[]; h: number[]; v: number[] }>();
