@@ -46,6 +46,8 @@ export const can = {
 	handleAlerts: ['procurement', 'admin'],
 	proposeInvalidation: ['technician', 'chemometrician', 'admin'],
 	decideInvalidation: ['qa'],
+	/** restart a supplier's drift history after a confirmed process change */
+	restartDriftBaseline: ['chemometrician'],
 	administer: ['admin']
 } as const satisfies Record<string, readonly Role[]>;
 export type Capability = keyof typeof can;

@@ -13,6 +13,7 @@ import { z } from 'zod';
 import { driftSeries, type IndividualsLimits, type RuleHit } from '../../analysis';
 import { sequelize, transaction } from '../db';
 import { queueMail } from '../mail';
+import { can } from '../../permissions';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
 import { conflict, forbidden, invalid, notFound } from './errors';
@@ -344,7 +345,7 @@ export const restartSchema = z.object({
  * history, and the chart collects 5 lots again. Chemometrician only, with a reason, audited.
  */
 export async function restartBaseline(actor: Actor, supplierRef: string | number, input: z.input<typeof restartSchema>) {
-	if (!hasRole(actor, 'chemometrician')) throw forbidden('Only a chemometrician re-estimates a drift baseline');
+	if (!hasRole(actor, can.restartDriftBaseline)) throw forbidden('Only a chemometrician re-estimates a drift baseline');
 	if (actor.id == null) throw forbidden('A baseline restart is recorded by a signed-in chemometrician');
 	const data = restartSchema.parse(input);
 	return transaction(async (tx) => {

@@ -32,7 +32,7 @@ export const load = (async (event) => {
 	return {
 		card,
 		driftCharts: await drift.chartsForSupplier(card.supplier.code),
-		canRestartDrift: hasRole(actor, 'chemometrician'),
+		canRestartDrift: hasRole(actor, can.restartDriftBaseline),
 		restartForm: await superValidate(zod(drift.restartSchema), { id: 'restart-drift' }),
 		requests,
 		pending,
@@ -61,7 +61,7 @@ function refuse(form: SuperValidated<any, any>, e: unknown) {
 
 export const actions = {
 	restartDrift: async (event) => {
-		const actor = requireUser(event, 'chemometrician');
+		const actor = requireUser(event, can.restartDriftBaseline);
 		const form = await superValidate(event.request, zod(drift.restartSchema), { id: 'restart-drift' });
 		if (!form.valid) return fail(400, { form });
 		try {
