@@ -2,7 +2,8 @@ import { json, type RequestEvent } from '@sveltejs/kit';
 import { ZodError } from 'zod';
 import { flatRoles, type Allowed } from '$lib/permissions';
 import { markDatabaseDown } from './db';
-import { BodyTooLarge, isConnectionError } from './request-limits';
+import { unstorableTextPath } from '$lib/validation/text';
+import { BodyTooLarge, isConnectionError, isUnstorableTextError } from './request-limits';
 import { hasRole, type Actor } from './services/actor';
 import { ServiceError } from './services/errors';
 
@@ -29,6 +30,9 @@ export function errorResponse(error: unknown) {
 	if (isConnectionError(error)) {
 		markDatabaseDown();
 		return apiError(503, 'database-unavailable', 'The Lotgate database is not reachable right now. Nothing was changed. Try again in a minute, or tell your admin.');
+	}
+	if (isUnstorableTextError(error)) {
+		return apiError(400, 'invalid-text', 'The request holds text that cannot be stored (a NUL, control or broken character); nothing was changed');
 	}
 	if (error instanceof ZodError) {
 		const issue = error.issues[0];
@@ -62,11 +66,16 @@ export function handler<E extends RequestEvent>(fn: (event: E) => Promise<Respon
 }
 
 export async function readJson(request: Request): Promise<Record<string, unknown>> {
+	let parsed: Record<string, unknown>;
 	try {
 		const body = await request.json();
 		if (!body || typeof body !== 'object' || Array.isArray(body)) throw new Error('not an object');
-		return body as Record<string, unknown>;
+		parsed = body as Record<string, unknown>;
 	} catch {
 		throw new ServiceError(400, 'invalid-json', 'The request body must be a JSON object');
 	}
+	// Text PostgreSQL cannot store as sent is refused for every field, also ones a route's schema does not know.
+	const bad = unstorableTextPath(parsed);
+	if (bad) throw new ServiceError(400, 'invalid-text', `${bad.path}: this text ${bad.problem}`, bad.path);
+	return parsed;
 }

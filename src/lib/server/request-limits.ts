@@ -95,3 +95,16 @@ export function isConnectionError(error: unknown): boolean {
 	}
 	return false;
 }
+
+/**
+ * PostgreSQL refusing text it cannot store (NUL in text, \u0000 in jsonb, invalid UTF-8): a bad request that slipped
+ * past the field checks, answered 400 instead of 500.
+ */
+export function isUnstorableTextError(error: unknown): boolean {
+	for (let e = error as { code?: string; parent?: unknown; original?: unknown; cause?: unknown } | undefined, depth = 0; e && depth < 5; depth++) {
+		if (typeof e !== 'object') return false;
+		if (['22021', '22P05'].includes(String(e.code ?? ''))) return true;
+		e = (e.parent ?? e.original ?? e.cause) as typeof e;
+	}
+	return false;
+}

@@ -15,6 +15,7 @@ import { can } from '../../permissions';
 // invalidation is added to its findings (see `noteInvalidation`) and procurement closes it.
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { proseText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
 import { queueMail } from '../mail';
 import { hasRole, type Actor } from './actor';
@@ -43,7 +44,7 @@ export interface ScanFinding {
 	reason?: string | null;
 }
 
-export const noteSchema = z.object({ note: z.string().trim().min(3, 'Write a note of at least 3 characters').max(2000, 'At most 2000 characters') });
+export const noteSchema = z.object({ note: proseText(z.string().trim().min(3, 'Write a note of at least 3 characters').max(2000, 'At most 2000 characters')) });
 
 function requireProcurement(actor: Actor) {
 	if (!hasRole(actor, can.handleAlerts)) throw forbidden('Only procurement (or an admin) handles supplier alerts');

@@ -3,6 +3,7 @@ import { createHash } from 'node:crypto';
 import { Op, QueryTypes, type Transaction, type WhereOptions } from 'sequelize';
 import { models, runBeforeCommit, sequelize } from '../db';
 import type { Actor } from './actor';
+import { cleanText } from './errors';
 
 export const GENESIS_HASH = '0'.repeat(64);
 // Any constant works; it serialises appenders so the chain has one order.
@@ -50,6 +51,8 @@ const queued = new WeakMap<Transaction, { actor: Actor; input: AuditInput }[]>()
  * for the append and the commit, not for the work before it (concurrent uploads would otherwise queue on it).
  */
 export async function record(tx: Transaction, actor: Actor, input: AuditInput): Promise<void> {
+	// The last net for text that reached a service without a schema: refusing here rolls the whole change back.
+	if (input.reason != null) input = { ...input, reason: cleanText(String(input.reason), 'reason', 'multiline') };
 	const pending = queued.get(tx);
 	if (pending) {
 		pending.push({ actor, input: { ...input, before: plain(input.before), after: plain(input.after) } });

@@ -1,6 +1,7 @@
 import { can } from '../../permissions';
 import { col, fn, where as sqlWhere } from 'sequelize';
 import { z } from 'zod';
+import { nameText } from '../../validation/text';
 import { models, transaction, type Transaction } from '../db';
 import type { Instrument, InstrumentToken } from '../db/models';
 import { newToken } from '../tokens';
@@ -16,7 +17,7 @@ const dateText = z
 export const instrumentSchema = z.object({
 	name: z.string().trim().regex(/^[A-Za-z0-9][A-Za-z0-9 _.-]{1,39}$/, 'Use 2–40 letters, digits, spaces, dots or dashes'),
 	technique: z.enum(['NIR', 'Raman', 'mid-IR']),
-	serial: z.string().trim().min(1, 'Enter the serial number').max(80),
+	serial: nameText(z.string().trim().min(1, 'Enter the serial number').max(80)),
 	axisUnit: z.enum(['nm', 'cm-1', 'um']),
 	qualificationDue: dateText
 });
@@ -25,14 +26,14 @@ export type InstrumentInput = z.input<typeof instrumentSchema>;
 /** What an admin may change later; the name stays, since files and libraries refer to instruments by name. */
 export const instrumentUpdateSchema = z.object({
 	technique: z.enum(['NIR', 'Raman', 'mid-IR']).optional(),
-	serial: z.string().trim().min(1, 'Enter the serial number').max(80).optional(),
+	serial: nameText(z.string().trim().min(1, 'Enter the serial number').max(80)).optional(),
 	axisUnit: z.enum(['nm', 'cm-1', 'um']).optional(),
 	qualificationDue: dateText.optional(),
 	active: z.boolean().optional()
 });
 export type InstrumentUpdate = z.input<typeof instrumentUpdateSchema>;
 
-export const tokenLabelSchema = z.string().trim().min(2, 'Give the token a label, e.g. where it is installed').max(80);
+export const tokenLabelSchema = nameText(z.string().trim().min(2, 'Give the token a label, e.g. where it is installed').max(80));
 
 export const toPublic = (i: Instrument) => ({
 	id: i.id,
@@ -134,7 +135,7 @@ export async function assertQualified(instrumentId: number, tx?: Transaction, no
 /** Creates an API token for an instrument; the token text is returned this once and only its hash is kept. */
 export async function createToken(actor: Actor, instrumentId: number, label: string) {
 	requireAdmin(actor, 'creates instrument tokens');
-	const cleanLabel = tokenLabelSchema.parse(label);
+	const { label: cleanLabel } = z.object({ label: tokenLabelSchema }).parse({ label });
 	if (actor.id == null) throw forbidden('A token is created by a signed-in admin');
 	return transaction(async (tx) => {
 		const { Instrument, InstrumentToken } = models();

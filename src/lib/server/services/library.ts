@@ -2,30 +2,32 @@
 import { can } from '../../permissions';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { nameText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
 import { forbidden, invalid, notFound } from './errors';
 import * as materials from './materials';
 import * as intake from './spectra';
+import { displayFileName } from '../../validation/text';
 
 export const ROLES = ['training', 'test', 'challenge'] as const;
 export type LibraryRole = (typeof ROLES)[number];
 
 /** How an upload is labelled: per-row columns of a CSV matrix, or one label for every spectrum (JCAMP, x,y CSV). */
 export const labellingSchema = z.object({
-	classColumn: z.string().trim().max(60).default('class'),
-	roleColumn: z.string().trim().max(60).default('role'),
-	supplierColumn: z.string().trim().max(60).default('supplier'),
-	lotColumn: z.string().trim().max(60).default('supplier_lot'),
-	instrumentColumn: z.string().trim().max(60).default('instrument'),
+	classColumn: nameText(z.string().trim().max(60)).default('class'),
+	roleColumn: nameText(z.string().trim().max(60)).default('role'),
+	supplierColumn: nameText(z.string().trim().max(60)).default('supplier'),
+	lotColumn: nameText(z.string().trim().max(60)).default('supplier_lot'),
+	instrumentColumn: nameText(z.string().trim().max(60)).default('instrument'),
 	/** Label for spectra without a class column (e.g. JCAMP files): a class name, or an alien's label for challenge spectra. */
-	class: z.string().trim().toLowerCase().max(60).optional(),
+	class: nameText(z.string().trim().toLowerCase().max(60)).optional(),
 	role: z.enum(ROLES, { errorMap: () => ({ message: 'Role is training, test or challenge' }) }).optional(),
-	supplier: z.string().trim().toUpperCase().max(40).optional(),
-	supplierLot: z.string().trim().max(80).optional(),
+	supplier: nameText(z.string().trim().toUpperCase().max(40)).optional(),
+	supplierLot: nameText(z.string().trim().max(80)).optional(),
 	/** Instrument id or name, for spectra that do not name one. */
-	instrument: z.union([z.number().int(), z.string().trim().max(80)]).optional()
+	instrument: z.union([z.number().int(), nameText(z.string().trim().max(80))]).optional()
 });
 export type Labelling = z.input<typeof labellingSchema>;
 
@@ -223,7 +225,7 @@ const toRow = (r: RawRow): LibraryRow => ({
 	supplier: r.supplier,
 	supplierLot: r.supplier_lot,
 	instrument: r.instrument,
-	fileName: r.file_name,
+	fileName: displayFileName(r.file_name),
 	title: r.title,
 	sampleId: r.sample_id,
 	acquiredAt: r.acquired_at ? new Date(r.acquired_at).toISOString() : null,

@@ -4,12 +4,14 @@ import { can } from '../../permissions';
 import { randomInt } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { nameText, proseText } from '../../validation/text';
 import { makePlan, PLAN_KINDS, PLAN_LABELS, reducedPlanRefusal, type PlanKind, type SamplingPlan } from '../../analysis/sampling';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
 import * as containerResults from './container-results';
 import { conflict, forbidden, invalid, notFound } from './errors';
+import { displayFileName } from '../../validation/text';
 
 export type LotStatus = 'awaiting-scans' | 'screened' | 'released' | 'quarantined' | 'rejected';
 export const LOT_STATUSES: LotStatus[] = ['awaiting-scans', 'screened', 'released', 'quarantined', 'rejected'];
@@ -30,7 +32,7 @@ export const IDENTITY_LABELS: Record<Exclude<Identity, null>, string> = {
 export const VALID_VERDICTS = ['genuine', 'suspect', 'unknown', 'not-this-material'] as const;
 export type ScanVerdict = (typeof VALID_VERDICTS)[number] | 'unusable' | 'not-screened';
 
-const ref = z.union([z.number().int().positive(), z.string().trim().min(1, 'Choose one').max(60)]);
+const ref = z.union([z.number().int().positive(), nameText(z.string().trim().min(1, 'Choose one').max(60))]);
 const isoDate = z
 	.string()
 	.trim()
@@ -41,7 +43,7 @@ const planInput = z.preprocess(
 	(v) => (v == null || v === '' ? { kind: 'every' } : typeof v === 'string' ? { kind: v } : v),
 	z.object({
 		kind: z.enum(PLAN_KINDS as [PlanKind, ...PlanKind[]], { errorMap: () => ({ message: 'Plan is every, n, p or r' }) }).default('every'),
-		justification: z.string().trim().max(2000).optional(),
+		justification: proseText(z.string().trim().max(2000)).optional(),
 		seed: z.coerce.number().int().min(0).max(4294967295).optional()
 	})
 );
@@ -49,12 +51,12 @@ const planInput = z.preprocess(
 export const lotSchema = z.object({
 	material: ref,
 	supplier: ref,
-	supplierLot: z.string().trim().min(1, "Enter the supplier's lot number").max(80, 'At most 80 characters'),
+	supplierLot: nameText(z.string().trim().min(1, "Enter the supplier's lot number").max(80, 'At most 80 characters')),
 	containers: z.coerce.number({ invalid_type_error: 'Enter the number of containers' }).int('A whole number of containers').min(1, 'At least 1 container').max(10000, 'At most 10000 containers'),
 	receivedAt: isoDate,
 	plan: planInput.optional(),
 	/** Same as plan.justification, for forms that keep it beside the plan picker. */
-	justification: z.string().trim().max(2000).optional()
+	justification: proseText(z.string().trim().max(2000)).optional()
 });
 export type LotInput = z.input<typeof lotSchema>;
 
@@ -479,7 +481,7 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 			statistics: family || classes ? { family: statsView(family), classes: Object.fromEntries(Object.entries(classes ?? {}).map(([k, s]) => [k, statsView(s)!])) } : null,
 			modelVersion: r.model_version_id ? { id: Number(r.model_version_id), label: `${materialCode} v${r.model_version}` } : null,
 			spectrumId: Number(r.spectrum_id),
-			fileName: r.file_name as string,
+			fileName: displayFileName(r.file_name as string),
 			title: (r.title as string | null) ?? null,
 			sha256: r.sha256 as string,
 			format: r.format as string,

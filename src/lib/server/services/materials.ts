@@ -1,5 +1,6 @@
 import { can } from '../../permissions';
 import { z } from 'zod';
+import { nameText, proseText } from '../../validation/text';
 import { models, transaction } from '../db';
 import type { Material, MaterialClass } from '../db/models';
 import { hasRole, type Actor } from './actor';
@@ -12,10 +13,10 @@ export const materialSchema = z.object({
 		.trim()
 		.toUpperCase()
 		.regex(/^[A-Z0-9][A-Z0-9-]{1,23}$/, 'Use 2–24 capital letters, digits or dashes'),
-	name: z.string().trim().min(2, 'Enter the material name').max(200),
+	name: nameText(z.string().trim().min(2, 'Enter the material name').max(200)),
 	technique: z.enum(['NIR', 'Raman', 'mid-IR'], { errorMap: () => ({ message: 'Choose NIR, Raman or mid-IR' }) }),
 	samplingPolicy: z.enum(['every-container', 'reduced-allowed']).default('every-container'),
-	samplingJustification: z.string().trim().max(2000).optional(),
+	samplingJustification: proseText(z.string().trim().max(2000)).optional(),
 	/** Replicate scans per container, k = 1..5 (never averaged: docs/methods.md §20). */
 	replicates: z.coerce.number({ invalid_type_error: 'Replicates must be a number' }).int('Replicates must be a whole number').min(1, 'At least 1 replicate').max(5, 'At most 5 replicates').default(1),
 	recipients: z.array(z.string().trim().email('Each recipient must be an e-mail address')).max(50).default([])
@@ -29,7 +30,7 @@ export const classSchema = z.object({
 		.toLowerCase()
 		.regex(/^[a-z0-9][a-z0-9-]{0,39}$/, 'Use lower-case letters, digits and dashes, e.g. diluted-starch'),
 	kind: z.enum(['genuine', 'suspect'], { errorMap: () => ({ message: 'Kind is genuine or suspect' }) }),
-	description: z.string().trim().max(500).default('')
+	description: proseText(z.string().trim().max(500)).default('')
 });
 export type ClassInput = z.input<typeof classSchema>;
 

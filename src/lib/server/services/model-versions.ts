@@ -4,6 +4,7 @@ import { can } from '../../permissions';
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { nameText, proseText } from '../../validation/text';
 import { buildModel, evaluate, parseRecipe, prepareArtefact, screen, serializeArtefact, type ModelArtefact, type ValidationReport } from '../../analysis';
 import { chi2Inv } from '../../analysis/quantiles';
 import { alphaRefusal } from '../../analysis/alpha-bounds';
@@ -68,8 +69,8 @@ export const buildParamsSchema = z.object({
 	folds: z.coerce.number().int().min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
 	groupBy: z.enum(GROUPINGS, { errorMap: () => ({ message: 'Group folds by supplier_lot, supplier, instrument or none' }) }).default('supplier_lot'),
 	speLimit: z.enum(['jackson-mudholkar', 'box', 'moments'], { errorMap: () => ({ message: 'SPE limit is jackson-mudholkar, box or moments' }) }).default('moments'),
-	genuine: z.string().trim().toLowerCase().optional(),
-	note: z.string().trim().max(2000).optional()
+	genuine: nameText(z.string().trim().toLowerCase()).optional(),
+	note: proseText(z.string().trim().max(2000)).optional()
 });
 export type BuildParams = z.infer<typeof buildParamsSchema>;
 export type BuildParamsInput = z.input<typeof buildParamsSchema>;
@@ -77,11 +78,11 @@ export type BuildParamsInput = z.input<typeof buildParamsSchema>;
 const exclusionSchema = z.object({
 	entryIds: z.array(z.coerce.number().int().positive()).min(1, 'Select at least one spectrum'),
 	category: z.enum(EXCLUSION_CATEGORIES, { errorMap: () => ({ message: 'Choose the reason category' }) }),
-	reason: z.string().trim().min(3, 'Write why these spectra are excluded').max(2000)
+	reason: proseText(z.string().trim().min(3, 'Write why these spectra are excluded').max(2000))
 });
 const inclusionSchema = z.object({
 	entryIds: z.array(z.coerce.number().int().positive()).min(1, 'Select at least one spectrum'),
-	reason: z.string().trim().min(3, 'Write why these spectra come back').max(2000)
+	reason: proseText(z.string().trim().min(3, 'Write why these spectra come back').max(2000))
 });
 export type ExclusionInput = z.input<typeof exclusionSchema>;
 

@@ -11,11 +11,12 @@ import { prepareStored } from './artefact-store';
 import * as alerts from './alerts';
 import * as audit from './audit';
 import * as drift from './drift';
-import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
+import { conflict, forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
 import * as containerResults from './container-results';
 import * as lots from './lots';
 import { isClosed, type Identity, type LotStatus, type ScanVerdict } from './lots';
 import * as intake from './spectra';
+import { displayFileName } from '../../validation/text';
 
 export { isClosed };
 
@@ -174,6 +175,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 	requireScanner(actor);
 	if (!file?.bytes?.length) throw invalid('Choose a spectrum file: the upload is empty', 'file');
 	if (!file.fileName?.trim()) throw invalid('The file needs a name', 'file');
+	file = { ...file, fileName: storableFileName(file.fileName) };
 	const parsedContainer = containerSchema.safeParse(file.container);
 	if (!parsedContainer.success) throw invalid(`Container: ${parsedContainer.error.issues[0].message}`, 'container');
 	const container = parsedContainer.data;
@@ -397,7 +399,7 @@ export async function detail(lotRef: number | string, scanId: number) {
 		profile: (r.profile as string | null) ?? null,
 		reason: (r.reason as string | null) ?? null,
 		modelVersionId: r.model_version_id ? Number(r.model_version_id) : null,
-		fileName: r.file_name as string,
+		fileName: displayFileName(r.file_name as string),
 		title: (r.title as string | null) ?? null,
 		spectrum: { axis, values, unit: r.unit as string },
 		contributions

@@ -4,6 +4,7 @@ import canonicalize from 'canonicalize';
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { lineText, proseText } from '../../validation/text';
 import { sequelize } from '../db';
 import type { Actor } from './actor';
 import * as audit from './audit';
@@ -37,8 +38,8 @@ export interface Manifestation {
 
 export const signatureFieldsSchema = z.object({
 	password: z.string().min(1, 'Re-enter your password to sign'),
-	meaning: z.string().trim().min(3, 'Choose what the signature means').max(200),
-	reason: z.string().trim().min(3, 'Write the reason for signing').max(2000)
+	meaning: lineText(z.string().trim().min(3, 'Choose what the signature means').max(200)),
+	reason: proseText(z.string().trim().min(3, 'Write the reason for signing').max(2000))
 });
 
 /** sha256 of the canonical JSON (RFC 8785) of a record, so the same content always hashes the same. */

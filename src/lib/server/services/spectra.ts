@@ -7,8 +7,9 @@ import { parseSpectrumFile, SpectrumFileError, type AxisUnit, type ParsedFile } 
 import { sequelize, transaction, type Transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
-import { forbidden, invalid, notFound, ServiceError } from './errors';
+import { forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
 import * as instruments from './instruments';
+import { displayFileName } from '../../validation/text';
 
 export type SpectrumContext = 'loose' | 'library' | 'lot';
 const CONTEXTS: SpectrumContext[] = ['loose', 'library', 'lot'];
@@ -161,7 +162,7 @@ async function findDuplicate(tx: Transaction | undefined, context: SpectrumConte
 		  WHERE sha256 = :sha256 AND context = :context AND coalesce(context_id, 0) = :contextId AND row_index = 0 LIMIT 1`,
 		{ replacements: { sha256, context, contextId: contextId ?? 0 }, type: QueryTypes.SELECT, transaction: tx }
 	);
-	return rows[0] ? { id: Number(rows[0].id), fileName: rows[0].file_name, createdAt: new Date(rows[0].created_at).toISOString() } : null;
+	return rows[0] ? { id: Number(rows[0].id), fileName: displayFileName(rows[0].file_name), createdAt: new Date(rows[0].created_at).toISOString() } : null;
 }
 
 const contextWords = (context: SpectrumContext, contextId: number | null) =>
@@ -190,7 +191,7 @@ export function ingestFile(actor: Actor, input: IngestInput, tx?: Transaction): 
 /** `checked`: the source instrument already resolved and checked by the caller for the whole batch. */
 async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checked?: { instrument: instruments.PublicInstrument | null }): Promise<StoredSpectrum[]> {
 	if (!mayUpload(actor)) throw forbidden('Only a technician, a chemometrician, an admin or an instrument token uploads spectra');
-	const fileName = (input.fileName ?? '').trim() || 'upload';
+	const fileName = storableFileName(input.fileName);
 	if (!CONTEXTS.includes(input.context)) throw invalid(`Unknown context "${input.context}"`, 'context');
 	const contextId = input.context === 'loose' ? null : (input.contextId ?? null);
 	if (input.context !== 'loose' && contextId == null) throw invalid(`A ${input.context} upload needs the ${input.context} it belongs to`, 'contextId');
@@ -350,11 +351,11 @@ export async function ingestBatch(
 				contextId: options.contextId ?? null,
 				allowGaps: options.allowGaps
 			};
-			return { file: f.name, ok: true, spectra: await ingest(actor, input, undefined, { instrument }) };
+			return { file: displayFileName(f.name), ok: true, spectra: await ingest(actor, input, undefined, { instrument }) };
 		} catch (e) {
-			if (e instanceof IntakeError) return { file: f.name, ok: false, status: e.status, error: e.toJSON() };
+			if (e instanceof IntakeError) return { file: displayFileName(f.name), ok: false, status: e.status, error: e.toJSON() };
 			if (e instanceof ServiceError && e.status !== 403 && e.status !== 401 && e.status !== 503) {
-				return { file: f.name, ok: false, status: e.status, error: { code: e.code, message: `${f.name}: ${e.message}`, file: f.name } };
+				return { file: displayFileName(f.name), ok: false, status: e.status, error: { code: e.code, message: `${displayFileName(f.name)}: ${e.message}`, file: displayFileName(f.name) } };
 			}
 			throw e;
 		}
@@ -422,7 +423,7 @@ function toRecord(r: Row): SpectrumRecord {
 	return {
 		id: Number(r.id),
 		sha256: r.sha256,
-		fileName: r.file_name,
+		fileName: displayFileName(r.file_name),
 		format: r.format,
 		rowIndex: r.row_index,
 		points: r.points,

@@ -3,6 +3,7 @@ import { can } from '../../permissions';
 // manager co-signs with an electronic signature before the status changes. Both steps are audited.
 import { QueryTypes } from 'sequelize';
 import { z } from 'zod';
+import { proseText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
 import type { SupplierStatus } from '../db/models';
 import { hasRole, type Actor } from './actor';
@@ -13,9 +14,9 @@ import * as suppliers from './suppliers';
 
 export const requestSchema = z.object({
 	status: z.enum(['qualified', 'on-watch', 'blocked'], { errorMap: () => ({ message: 'Choose qualified, on watch or blocked' }) }),
-	reason: z.string().trim().min(5, 'Give the reason for the change (at least 5 characters)').max(2000)
+	reason: proseText(z.string().trim().min(5, 'Give the reason for the change (at least 5 characters)').max(2000))
 });
-export const declineSchema = z.object({ note: z.string().trim().min(3, 'Say why the request is declined').max(2000) });
+export const declineSchema = z.object({ note: proseText(z.string().trim().min(3, 'Say why the request is declined').max(2000)) });
 
 export interface StatusRequestView {
 	id: number;

@@ -1,6 +1,7 @@
 import { can } from '../../permissions';
 import { Op } from 'sequelize';
 import { z } from 'zod';
+import { nameText } from '../../validation/text';
 import { models, transaction } from '../db';
 import type { Supplier, SupplierStatus } from '../db/models';
 import { hasRole, type Actor } from './actor';
@@ -15,7 +16,7 @@ export const supplierSchema = z.object({
 		.trim()
 		.toUpperCase()
 		.regex(/^[A-Z0-9][A-Z0-9-]{1,19}$/, 'Use 2–20 capital letters, digits or dashes'),
-	name: z.string().trim().min(2, 'Enter the supplier name').max(160),
+	name: nameText(z.string().trim().min(2, 'Enter the supplier name').max(160)),
 	contacts: z.array(z.string().trim().email('Each contact must be an e-mail address')).max(20).default([]),
 	status: z.enum(['qualified', 'on-watch', 'blocked']).default('qualified')
 });

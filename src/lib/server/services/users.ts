@@ -1,6 +1,7 @@
 import bcrypt from 'bcryptjs';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { nameText, proseText } from '../../validation/text';
 import { models, sequelize, transaction } from '../db';
 import { can, ROLES, type Role } from '../../permissions';
 import type { User } from '../db/models';
@@ -20,7 +21,7 @@ export const rolesSchema = z.array(z.enum(ROLES)).min(1, 'Give the user at least
 export const newUserSchema = z
 	.object({
 		email: z.string().trim().toLowerCase().email('Enter a valid e-mail address'),
-		name: z.string().trim().min(2, 'Enter the full printed name used on signatures').max(120),
+		name: nameText(z.string().trim().min(2, 'Enter the full printed name used on signatures').max(120)),
 		password: passwordSchema,
 		roles: rolesSchema
 	})
@@ -187,7 +188,7 @@ export async function pendingRoleChanges(actor: Actor): Promise<RoleChangeReques
 export async function decideRoleChange(actor: Actor, requestId: number, approve: boolean, reason: string) {
 	requireAdmin(actor);
 	if (actor.id == null) throw forbidden('A role grant is decided by a person');
-	const why = z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500).parse(reason);
+	const why = proseText(z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500)).parse(reason);
 	return transaction(async (tx) => {
 		const rows = await sequelize().query<RoleChangeRow>(
 			`SELECT r.*, u.name AS requested_by_name FROM role_change_requests r JOIN users u ON u.id = r.requested_by WHERE r.id = :id FOR UPDATE OF r`,

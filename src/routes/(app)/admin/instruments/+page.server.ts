@@ -3,17 +3,18 @@ import { fail } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
+import { nameText, proseText } from '$lib/validation/text';
 import { requireUser } from '$lib/server/guard';
 import { ServiceError } from '$lib/server/services/errors';
 import { rowAction } from '$lib/server/forms';
 import * as instruments from '$lib/server/services/instruments';
 import type { Actions, PageServerLoad } from './$types';
 
-const reason = z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500);
-const createSchema = instruments.instrumentSchema.extend({ reason: z.string().trim().max(500).optional() });
+const reason = proseText(z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500));
+const createSchema = instruments.instrumentSchema.extend({ reason: proseText(z.string().trim().max(500)).optional() });
 const updateSchema = z.object({
 	instrumentId: z.coerce.number().int(),
-	serial: z.string().trim().min(1, 'Enter the serial number').max(80),
+	serial: nameText(z.string().trim().min(1, 'Enter the serial number').max(80)),
 	qualificationDue: instruments.instrumentSchema.shape.qualificationDue,
 	active: z.enum(['true', 'false']),
 	reason

@@ -3,13 +3,14 @@ import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
 import { can, ROLES } from '$lib/permissions';
+import { proseText } from '$lib/validation/text';
 import { requireUser } from '$lib/server/guard';
 import { ServiceError } from '$lib/server/services/errors';
 import { rowAction } from '$lib/server/forms';
 import * as users from '$lib/server/services/users';
 import type { Actions, PageServerLoad } from './$types';
 
-const reason = z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500);
+const reason = proseText(z.string().trim().min(3, 'Give a reason (it goes into the audit trail)').max(500));
 const rolesSchema = z.object({ userId: z.coerce.number().int(), roles: z.array(z.enum(ROLES)).min(1, 'Keep at least one role'), reason });
 const passwordSchema = z.object({ userId: z.coerce.number().int(), password: users.passwordSchema, reason });
 const decideSchema = z.object({ requestId: z.coerce.number().int().positive(), decision: z.enum(['approve', 'decline']), reason });

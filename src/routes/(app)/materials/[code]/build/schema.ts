@@ -1,5 +1,6 @@
 // The build form's schema (browser and server): strings where the form sends strings; the service re-validates everything.
 import { z } from 'zod';
+import { proseText } from '$lib/validation/text';
 import { parseRecipe } from '$lib/analysis/preprocess/recipe';
 import { alphaRefusal } from '$lib/analysis/alpha-bounds';
 
@@ -37,7 +38,7 @@ export const buildFormSchema = z.object({
 	folds: z.coerce.number().int('Folds must be a whole number').min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
 	groupBy: z.enum(['supplier_lot', 'supplier', 'instrument', 'none']).default('supplier_lot'),
 	speLimit: z.enum(['moments', 'jackson-mudholkar', 'box']).default('moments'),
-	note: z.string().trim().max(2000).default('')
+	note: proseText(z.string().trim().max(2000)).default('')
 });
 export type BuildForm = z.infer<typeof buildFormSchema>;
 

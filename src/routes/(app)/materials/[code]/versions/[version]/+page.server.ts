@@ -3,6 +3,7 @@ import { fail, redirect } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
+import { proseText } from '$lib/validation/text';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import * as versions from '$lib/server/services/model-versions';
@@ -22,10 +23,10 @@ const idList = (s: string) => s.split(',').map((x) => Number(x.trim()));
 const excludeSchema = z.object({
 	entryIds: ids,
 	category: z.enum(versions.EXCLUSION_CATEGORIES, { errorMap: () => ({ message: 'Choose a reason category' }) }),
-	reason: z.string().trim().min(3, 'Write why these spectra are excluded').max(2000)
+	reason: proseText(z.string().trim().min(3, 'Write why these spectra are excluded').max(2000))
 });
-const includeSchema = z.object({ entryIds: ids, reason: z.string().trim().min(3, 'Write why these spectra come back').max(2000) });
-const rebuildSchema = z.object({ note: z.string().trim().max(2000).default('') });
+const includeSchema = z.object({ entryIds: ids, reason: proseText(z.string().trim().min(3, 'Write why these spectra come back').max(2000)) });
+const rebuildSchema = z.object({ note: proseText(z.string().trim().max(2000)).default('') });
 
 export const load = (async (event) => {
 	const actor = requireUser(event);

@@ -2,17 +2,17 @@ import { can } from '$lib/permissions';
 import { handler, requireActor } from '$lib/server/api';
 import * as spectra from '$lib/server/services/spectra';
 import type { RequestHandler } from './$types';
+import { contentDisposition } from '$lib/validation/text';
 
 /** The exact uploaded bytes, with the original file name; the SHA-256 lets the receiver check them. */
 export const GET: RequestHandler = handler(async (event) => {
 	const actor = requireActor(event, can.readSpectra);
 	const file = await spectra.raw(actor, event.params.id);
-	const ascii = file.fileName.replace(/[^\x20-\x7e]|["\\]/g, '_');
 	return new Response(new Uint8Array(file.bytes.buffer as ArrayBuffer, file.bytes.byteOffset, file.bytes.byteLength), {
 		headers: {
 			'content-type': 'application/octet-stream',
 			'content-length': String(file.bytes.byteLength),
-			'content-disposition': `attachment; filename="${ascii}"; filename*=UTF-8''${encodeURIComponent(file.fileName)}`,
+			'content-disposition': contentDisposition('attachment', file.fileName),
 			'x-content-sha256': file.sha256,
 			etag: `"${file.sha256}"`,
 			'cache-control': 'private, max-age=0'
