@@ -23,7 +23,8 @@ const routes = {
 	exclusions: () => import('../../src/routes/api/v1/models/[id]/exclusions/+server'),
 	dispositions: () => import('../../src/routes/api/v1/lots/[id]/dispositions/+server'),
 	acknowledge: () => import('../../src/routes/api/v1/alerts/[id]/acknowledge/+server'),
-	spectra: () => import('../../src/routes/api/v1/spectra/+server')
+	spectra: () => import('../../src/routes/api/v1/spectra/+server'),
+	invalidation: () => import('../../src/routes/api/v1/lots/[id]/scans/[scanId]/invalidation/+server')
 };
 
 let admin: Actor, tech: Actor, buyer: Actor, chemist: Actor, qa: Actor;
@@ -57,6 +58,7 @@ const cases: Case[] = [
 	{ kind: 'exclusion reason', field: 'reason', actor: () => chemist, route: routes.exclusions, path: () => `/api/v1/models/${fixture.versionId}/exclusions`, params: () => ({ id: String(fixture.versionId) }), body: (b) => ({ entryIds: [1], category: 'other', reason: `outlier${b}` }), rows: 'SELECT count(*) AS n FROM model_memberships' },
 	{ kind: 'disposition reason', field: 'reason', actor: () => qa, route: routes.dispositions, path: () => `/api/v1/lots/${lotId}/dispositions`, params: () => ({ id: String(lotId) }), body: (b) => ({ decision: 'quarantine', password: 'correct-horse-battery', meaning: 'quarantined', reason: `hold${b} for review` }), rows: 'SELECT count(*) AS n FROM dispositions' },
 	{ kind: 'disposition meaning', field: 'meaning', actor: () => qa, route: routes.dispositions, path: () => `/api/v1/lots/${lotId}/dispositions`, params: () => ({ id: String(lotId) }), body: (b) => ({ decision: 'quarantine', password: 'correct-horse-battery', meaning: `quarantined${b}`, reason: 'hold for review' }), rows: 'SELECT count(*) AS n FROM dispositions' },
+	{ kind: 'invalidation description', field: 'description', actor: () => tech, route: routes.invalidation, path: () => `/api/v1/lots/${lotId}/scans/1/invalidation`, params: () => ({ id: String(lotId), scanId: '1' }), body: (b) => ({ cause: 'other', description: `probe window${b} was dirty` }), rows: 'SELECT count(*) AS n FROM scan_invalidations' },
 	{ kind: 'alert note', field: 'note', actor: () => buyer, route: routes.acknowledge, path: () => '/api/v1/alerts/1/acknowledge', params: () => ({ id: '1' }), body: (b) => ({ note: `seen${b}, calling the supplier` }), rows: "SELECT count(*) AS n FROM alerts WHERE state <> 'open'" }
 ];
 

@@ -6,6 +6,7 @@
 import { can } from '../../permissions';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
+import { proseText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
@@ -26,10 +27,13 @@ export const proposalSchema = z.object({
 	cause: z.enum(INVALIDATION_CAUSES as [InvalidationCause, ...InvalidationCause[]], {
 		errorMap: () => ({ message: `Choose a cause: ${INVALIDATION_CAUSES.join(', ')}` })
 	}),
-	description: z.string({ required_error: 'Describe what went wrong and how it was found', invalid_type_error: 'Describe what went wrong and how it was found' })
-		.trim()
-		.min(10, 'Describe what went wrong and how it was found (at least 10 characters)')
-		.max(4000, 'At most 4000 characters')
+	description: proseText(
+		z
+			.string({ required_error: 'Describe what went wrong and how it was found', invalid_type_error: 'Describe what went wrong and how it was found' })
+			.trim()
+			.min(10, 'Describe what went wrong and how it was found (at least 10 characters)')
+			.max(4000, 'At most 4000 characters')
+	)
 });
 export type ProposalInput = z.input<typeof proposalSchema>;
 export const decisionSchema = signatures.signatureFieldsSchema;
