@@ -109,7 +109,7 @@ export async function classes(materialId: number) {
 
 export const replicatesSchema = z.object({
 	replicates: materialSchema.shape.replicates,
-	reason: z.string().trim().min(3, 'Write why the replicate count changes').max(2000)
+	reason: proseText(z.string().trim().min(3, 'Write why the replicate count changes').max(2000))
 });
 
 /**
