@@ -213,3 +213,64 @@ describe('result policy', () => {
 		expect((await lots.get((await receive(1)).id)).replicates).toBe(1);
 	});
 });
+
+describe('spectral quality gates before any model', () => {
+	it('each gate on a crafted spectrum gives unusable with the gate and its value, no model verdict and no supplier alert', async () => {
+		const { writeJcampAffn } = await import('../../src/lib/demo/jcamp-writer');
+		const { synth } = await import('../support/lot-fixtures');
+		const library = await import('../../src/lib/server/services/library');
+		const instruments = await import('../../src/lib/server/services/instruments');
+		const gates = await import('../../src/lib/server/services/quality-gates');
+		const { rootActor } = await import('../support/factories');
+		const fxg = await approvedMaterial();
+		// The material's library: the no-sample gate compares a scan's range with it.
+		await library.addFiles(rootActor, fxg.materialCode, [0, 1, 2, 3, 4].map((i) => ({ name: `lib-${i}.jdx`, bytes: jcamp('genuine', fxg.axis, 98000 + i, `lib-${i}`) })), { class: 'genuine', role: 'training' });
+		const write = (name: string, values: ArrayLike<number>, yUnits = 'ABSORBANCE') => ({
+			fileName: name,
+			bytes: new TextEncoder().encode(
+				writeJcampAffn({ title: name, axis: fxg.axis, values: Array.from(values, (v) => Math.round(v * 1e6) / 1e6), xUnits: 'NANOMETERS', yUnits, yFactor: 1e-6, dataType: 'NEAR INFRARED SPECTRUM', origin: 'Lotgate tests', owner: 'Lotgate tests (synthetic)' })
+			)
+		});
+		const good = synth('genuine', fxg.axis, 98100);
+		const top = Math.max(...good);
+		const clipped = Float64Array.from(good, (v) => Math.min(v, top - 0.05));
+		let seed = 11;
+		const noise = () => ((seed = (seed * 16807) % 2147483647) / 2147483647 - 0.5) * 1e-3;
+		const cases = [
+			{ file: write('G1-flat.jdx', new Float64Array(fxg.axis.length).fill(0.5)), gate: /quality gate flat: .*max − min = 0/ },
+			{ file: write('G2-saturated.jdx', clipped), gate: /quality gate saturation: \d+ consecutive points sit at the maximum value/ },
+			{ file: write('G3-empty.jdx', Float64Array.from(fxg.axis, () => 0.01 + noise())), gate: /quality gate no-sample: the signal's range .* % of the library's typical range/ },
+			{ file: write('G4-reflectance.jdx', Float64Array.from(good, (a) => 10 ** -a), 'REFLECTANCE'), gate: /quality gate wrong-ordinate: the file's ordinate is "REFLECTANCE"/ },
+			{ file: write('G5-percent.jdx', Float64Array.from(good, (a) => 100 * 10 ** -a), 'ARBITRARY UNITS'), gate: /quality gate wrong-ordinate: values run from .* percent reflectance/ }
+		];
+		const lot = await lots.create(tech.actor, { material: fxg.materialCode, supplier: fxg.supplierCode, supplierLot: unique('QG'), containers: cases.length + 1, receivedAt: today() });
+		for (const [i, c] of cases.entries()) {
+			const r = await scans.add(tech.actor, lot.id, { ...c.file, container: i + 1 });
+			expect(r.verdict, c.file.fileName).toBe('unusable');
+			expect(r.reason, c.file.fileName).toMatch(c.gate);
+			expect(r.modelVersion).toBeNull();
+		}
+		// The instrument's declared ordinate ceiling: the good spectrum is above a ceiling set below its maximum.
+		const inst = await instruments.create(rootActor, { name: unique('NIRQ'), technique: 'NIR', serial: 'q', axisUnit: 'nm', qualificationDue: '2999-01-01' });
+		await expect(gates.setOrdinateCeiling(tech.actor, inst.id, 1, 'not an admin')).rejects.toMatchObject({ status: 403 });
+		await gates.setOrdinateCeiling(rootActor, inst.id, top / 2, 'detector linear range from the qualification report');
+		const capped = await scans.add(tech.actor, lot.id, { ...write('G6-ceiling.jdx', good), container: cases.length + 1, instrumentId: inst.id });
+		expect(capped).toMatchObject({ verdict: 'unusable', reason: expect.stringMatching(/quality gate saturation: the maximum .* is above the instrument's ordinate ceiling/) });
+		// Never a material verdict, never an alert; the lot waits for rescans.
+		expect((await alerts.list({ lot: lot.id })).rows).toEqual([]);
+		let view = await lots.get(lot.id);
+		expect(view.containers.every((c) => c.result === 'unusable' && !c.decided)).toBe(true);
+		expect(view.status).toBe('awaiting-scans');
+		// The same good spectrum without that instrument passes every gate and is screened by the model.
+		const ok = await scans.add(tech.actor, lot.id, { ...write('G6-rescan.jdx', good), container: cases.length + 1 });
+		expect(ok.verdict).toBe('genuine');
+		view = await lots.get(lot.id);
+		expect(view.containers[cases.length].result).toBe('genuine');
+		// Thresholds per material (chemometrician or admin, with a reason, audited).
+		await expect(gates.setMaterialThresholds(tech.actor, fxg.materialId, { noSampleRatio: 0.1 }, 'stricter')).rejects.toMatchObject({ status: 403 });
+		await expect(gates.setMaterialThresholds(rootActor, fxg.materialId, { noSampleRatio: 1.5 }, 'nonsense')).rejects.toThrow();
+		await gates.setMaterialThresholds(rootActor, fxg.materialId, { saturationRun: 1000 }, 'instrument exports a flat-topped band by design');
+		const again = await scans.add(tech.actor, lot.id, { ...write('G2-saturated-again.jdx', Float64Array.from(clipped, (v) => v + 1e-6)), container: 2 });
+		expect(again.reason ?? '').not.toMatch(/consecutive points/);
+	});
+});

@@ -14,6 +14,7 @@ import * as drift from './drift';
 import { conflict, forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
 import * as containerResults from './container-results';
 import * as lots from './lots';
+import * as qualityGates from './quality-gates';
 import { isClosed, type Identity, type LotStatus, type ScanVerdict } from './lots';
 import * as intake from './spectra';
 import { displayFileName } from '../../validation/text';
@@ -132,7 +133,7 @@ async function storeUnparsed(tx: Transaction, actor: Actor, lotId: number, file:
 }
 
 type Ingested =
-	| { ok: true; spectrum: { id: number; sha256: string; title: string | null; technique: string | null; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um' } }
+	| { ok: true; spectrum: { id: number; sha256: string; title: string | null; technique: string | null; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um'; yUnit: string | null } }
 	| { ok: false; reason: string; format: 'unparsed' | 'refused' };
 
 // The spectrum parser's refusal codes (src/lib/spectra/errors.ts): such a file is kept as an unusable scan, not refused.
@@ -159,13 +160,13 @@ async function ingestForScan(tx: Transaction, actor: Actor, lotId: number, file:
 	}
 	if (stored.length !== 1) throw invalid(`${file.fileName} holds ${stored.length} spectra; a container scan is one spectrum`, 'file');
 	const s = stored[0];
-	const [row] = await sequelize().query<{ axis: (number | null)[]; intensities: (number | null)[]; unit: 'nm' | 'cm-1' | 'um' }>('SELECT axis, intensities, unit FROM spectra WHERE id = :id', {
+	const [row] = await sequelize().query<{ axis: (number | null)[]; intensities: (number | null)[]; unit: 'nm' | 'cm-1' | 'um'; y_unit: string | null }>('SELECT axis, intensities, unit, y_unit FROM spectra WHERE id = :id', {
 		replacements: { id: s.id },
 		type: QueryTypes.SELECT,
 		transaction: tx
 	});
 	const nan = (x: number | null) => (x == null ? Number.NaN : x);
-	return { ok: true, spectrum: { id: s.id, sha256: s.sha256, title: s.title, technique: s.technique, axis: row.axis.map(nan), values: row.intensities.map(nan), unit: row.unit } };
+	return { ok: true, spectrum: { id: s.id, sha256: s.sha256, title: s.title, technique: s.technique, axis: row.axis.map(nan), values: row.intensities.map(nan), unit: row.unit, yUnit: row.y_unit } };
 }
 
 const techniqueName = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
@@ -199,6 +200,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		let result: ScreenResult | null = null;
 		let verdict: ScanVerdict;
 		let reason: string | null = null;
+		let gate: qualityGates.GateOutcome | null = null;
 		const ingested = await ingestForScan(tx, actor, lotId, file, instrument);
 		if (!ingested.ok) {
 			stored = await storeUnparsed(tx, actor, lotId, file, instrument, material.technique === 'Raman' ? 'cm-1' : 'nm', ingested.reason, ingested.format);
@@ -213,6 +215,10 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 			} else if (s.technique && s.technique !== material.technique) {
 				verdict = 'unusable';
 				reason = `wrong technique: the file is a ${techniqueName(s.technique)} spectrum, but ${material.code} is identified by ${techniqueName(material.technique)}`;
+			} else if ((gate = await qualityGates.check({ materialId: material.id, technique: material.technique as 'NIR' | 'Raman' | 'mid-IR', instrumentId: instrument?.id ?? null, values: s.values, yUnits: s.yUnit }, tx)).ok === false) {
+				// Quality gates before any model: a lab problem is unusable (rescan), never a material verdict or an alert.
+				verdict = 'unusable';
+				reason = gate.reason;
 			} else if (!model) {
 				verdict = 'not-screened';
 				reason = `not screened: no approved model for ${material.code}`;

@@ -7,6 +7,7 @@ import lotsExtra from './005-lots-extra';
 import disposition from './006-disposition';
 import sessionsAndDuties from './020-sessions-and-duties';
 import resultIntegrity from './030-result-integrity';
+import qualityGates from './031-quality-gates';
 import auditorRole from './060-auditor-role';
 import supplierDrift from './080-supplier-drift';
 
@@ -17,4 +18,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity, auditorRole, supplierDrift];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity, qualityGates, auditorRole, supplierDrift];
