@@ -1,5 +1,5 @@
 // Spectral quality gates, run on the spectrum as measured, before any axis step, preprocessing or model
-// (docs/methods.md §21). A spectrum that fails a gate is `unusable` with a reason naming the gate and its value: it
+// (docs/methods.md §22). A spectrum that fails a gate is `unusable` with a reason naming the gate and its value: it
 // never gets a material verdict and never raises a supplier alert, because the cause is in the laboratory
 // (instrument, presentation, export), not in the material. Pure: no database.
 import { AnalysisError } from './errors';

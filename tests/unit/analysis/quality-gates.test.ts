@@ -1,4 +1,4 @@
-// Spectral quality gates (docs/methods.md §21). Each gate on a crafted spectrum; the thresholds are the documented
+// Spectral quality gates (docs/methods.md §22). Each gate on a crafted spectrum; the thresholds are the documented
 // defaults (common practice). The sweep over real and demo data checks the gates do not refuse good spectra:
 // the gasoline NIR set (Kalivas 1997, fixtures/open) and every demo library and lot spectrum except the designed faults.
 import { readFileSync } from 'node:fs';

@@ -1,6 +1,6 @@
 // Spectral quality gates for a lot scan: the thresholds of the material (overrides) and the instrument (ordinate
 // ceiling), the material's library reference for the no-sample gate, and the pure gates in
-// $lib/analysis/quality-gates. Called by the scan workflow before any model is applied (docs/methods.md §21).
+// $lib/analysis/quality-gates. Called by the scan workflow before any model is applied (docs/methods.md §22).
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { runGates, type GateOutcome, type GateThresholds, type Technique } from '../../analysis/quality-gates';
