@@ -38,3 +38,5 @@ export { ewma, EWMA_DEFAULT } from './ewma';
 export type { EwmaPoint } from './ewma';
 export { driftSeries, DRIFT_DEFAULTS } from './drift';
 export type { DriftLotInput, DriftLotResult, DriftSeries } from './drift';
+export type { Identification, IdentityMatch, FamilyCandidate, MeanCandidate } from './identify';
+export { identify, familyRatio, meanCorrelation } from './identify';

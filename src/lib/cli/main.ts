@@ -14,8 +14,15 @@ import {
 	type ModelStats,
 	type ScreenResult,
 	type SpectrumInput,
-	type TrainingSpectrum
+	type TrainingSpectrum,
+	type NodeOptions,
+	type LevelEvidence,
+	treeOf,
+	walkTree,
+	treeDepth,
+	describePath
 } from '../analysis';
+import { identify, type FamilyCandidate } from '../analysis/identify';
 import { CliError, readSpectraCsv } from './csv';
 
 export interface CliIo {
@@ -30,17 +37,22 @@ const defaultIo: CliIo = {
 
 const USAGE = `lotgate: build and apply spectral identity models from files
 
-  lotgate build --train FILE.csv [--class-column NAME] [--id-column NAME] [--genuine NAME]
+  lotgate build --train FILE.csv [--class-column NAME] [--id-column NAME] [--genuine NAME] [--node PATH=plsda|knn ...]
                 [--recipe STEPS] [--components N|auto] [--family-components N|auto]
                 [--alpha 0.05] [--family-alpha 0.01] [--gamma 0.01] [--limits cv|training]
                 [--folds 7] [--group-column NAME] [--spe-limit jackson-mudholkar|box|moments]
                 [--estimator moments|robust] [--max-components N] [--unit nm|cm-1|um]
                 [--meta KEY=VALUE ...] --out MODEL.json
   lotgate screen --model MODEL.json --input FILE.csv|FILE.jdx [--input ...] [--json] [--unit nm|cm-1|um]
+                 [--library OTHER.json ...]
 
 CSV: one spectrum per row; columns whose header is a number form the axis (nm unless --unit);
 the id column defaults to the first non-numeric column. Recipe steps: range(a,b), gaps(n), snv,
 msc, savgol(window,polyorder,deriv), detrend(order), center, autoscale (see docs/methods.md).
+Class labels may be paths with "/" between levels (genuine/site-a, diluted/starch, substituted): each node
+with children gets one one-class model per child, or a discriminant classifier with --node PATH=plsda|knn.
+--library: other materials' models; a not-this-material result then names the material it resembles
+(that model's meta.material, set with --meta material=NAME at build, else its file name).
 `;
 
 function readText(file: string, what: string): string {
@@ -100,6 +112,7 @@ function runBuild(args: string[], io: CliIo): number {
 			estimator: { type: 'string' },
 			unit: { type: 'string' },
 			meta: { type: 'string', multiple: true },
+			node: { type: 'string', multiple: true },
 			out: { type: 'string' }
 		}
 	});
@@ -124,6 +137,13 @@ function runBuild(args: string[], io: CliIo): number {
 		if (eq < 1) throw new CliError(`--meta must be KEY=VALUE, got "${kv}"`);
 		meta[kv.slice(0, eq)] = kv.slice(eq + 1);
 	}
+	const nodes: Record<string, NodeOptions> = {};
+	for (const spec of values.node ?? []) {
+		const m = /^([^=]+)=(plsda|knn)$/.exec(spec);
+		if (!m) throw new CliError(`--node must be PATH=plsda or PATH=knn (e.g. diluted=plsda), got "${spec}"`);
+		if (nodes[m[1]]) throw new CliError(`--node names "${m[1]}" twice`);
+		nodes[m[1]] = { method: m[2] as 'plsda' | 'knn' };
+	}
 	const folds = numberOpt('folds', values.folds);
 	const maxComponents = numberOpt('max-components', values['max-components']);
 	const options: BuildOptions = {
@@ -139,6 +159,7 @@ function runBuild(args: string[], io: CliIo): number {
 		speLimit: oneOf('spe-limit', values['spe-limit'], ['jackson-mudholkar', 'box', 'moments'] as const),
 		estimator: oneOf('estimator', values.estimator, ['moments', 'robust'] as const),
 		genuine: values.genuine,
+		nodes: Object.keys(nodes).length > 0 ? nodes : undefined,
 		meta
 	};
 	for (const k of Object.keys(options) as (keyof BuildOptions)[]) if (options[k] === undefined) delete options[k];
@@ -162,6 +183,8 @@ function runBuild(args: string[], io: CliIo): number {
 	}
 	const parts = [`family A=${artefact.family.components}`, ...artefact.classes.map((c) => `${c} A=${artefact.models[c].components}`)];
 	io.stderr(`model written to ${values.out}: ${training.length} spectra, ${artefact.axis.points} points, ${parts.join(', ')}\n`);
+	// deeper levels: one line per split
+	for (const n of walkTree(treeOf(artefact))) if (n.path.length > 0 && n.split) io.stderr(`  ${n.path.join('/')} (${n.n} spectra): ${n.split.classifier ?? `one-class, ${n.split.components}`}\n`);
 	return 0;
 }
 
@@ -187,6 +210,18 @@ const statsFields = (s: ModelStats | null) =>
 		? null
 		: { scores: s.scores, t2: s.t2, spe: s.spe, h: s.h, v: s.v, c: s.c, t2Limit: s.t2Limit, speLimit: s.speLimit, cCrit: s.cCrit, cOutlier: s.cOutlier, accepted: s.accepted };
 
+const levelFields = (l: LevelEvidence) => ({
+	node: l.node,
+	method: l.method,
+	children: l.children,
+	accepted: l.accepted,
+	chosen: l.chosen,
+	ambiguous: l.ambiguous,
+	reason: l.reason,
+	stats: Object.fromEntries(Object.entries(l.stats).map(([k, s]) => [k, statsFields(s)])),
+	classifier: l.classifier
+});
+
 async function runScreen(args: string[], io: CliIo): Promise<number> {
 	const { values } = parseArgs({
 		args,
@@ -196,7 +231,8 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 			input: { type: 'string', multiple: true },
 			json: { type: 'boolean' },
 			unit: { type: 'string' },
-			'id-column': { type: 'string' }
+			'id-column': { type: 'string' },
+			library: { type: 'string', multiple: true }
 		}
 	});
 	if (!values.model) throw new CliError('screen needs --model MODEL.json');
@@ -211,7 +247,17 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 	}
 	const prep = prepareArtefact(artefact);
 	const unit = unitOf(values.unit);
-	const results: (ScreenResult & { file: string })[] = [];
+	const libraries: FamilyCandidate[] = (values.library ?? []).map((file) => {
+		let other;
+		try {
+			other = parseArtefact(readText(file, 'the library model'));
+		} catch (e) {
+			if (e instanceof AnalysisError) throw new CliError(`${file}: ${e.message}`);
+			throw e;
+		}
+		return { material: other.meta.material || basename(file, extname(file)), prepared: prepareArtefact(other) };
+	});
+	const results: (ScreenResult & { file: string; resembles?: { material: string; ratio: number } | null })[] = [];
 	for (const file of values.input) {
 		const ext = extname(file).toLowerCase();
 		let inputs: SpectrumInput[];
@@ -239,7 +285,12 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 		} else {
 			inputs = readSpectraCsv(readText(file, 'the input'), file, { unit, idColumn: values['id-column'], blankAsNaN: true }).spectra;
 		}
-		for (const s of inputs) results.push({ ...screen(prep, s), file });
+		for (const s of inputs) {
+			const r = screen(prep, s);
+			// identification only for a spectrum its own material's family model rejected
+			const resembles = libraries.length > 0 && r.verdict === 'not-this-material' ? { resembles: identify(s, libraries).resembles } : {};
+			results.push({ ...r, file, ...resembles });
+		}
 	}
 	const modelVersion = artefact.meta.version ?? `sha256:${createHash('sha256').update(modelText).digest('hex').slice(0, 16)}`;
 	if (values.json) {
@@ -252,23 +303,34 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 				ambiguous: r.ambiguous,
 				reason: r.reason,
 				family: statsFields(r.family),
-				classes: Object.fromEntries(Object.entries(r.classes).map(([k, s]) => [k, statsFields(s)]))
+				classes: Object.fromEntries(Object.entries(r.classes).map(([k, s]) => [k, statsFields(s)])),
+				path: r.path,
+				levels: r.levels.map(levelFields),
+				...('resembles' in r ? { resembles: r.resembles } : {})
 			}))
 		};
 		io.stdout(JSON.stringify(out, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : v), 2) + '\n');
-	} else io.stdout(table(results, artefact.classes, modelVersion));
+	} else io.stdout(table(results, artefact.classes, modelVersion, treeDepth(treeOf(artefact)) > 2, libraries.length > 0));
 	return 0;
 }
 
 const f3 = (x: number | undefined): string => (x === undefined || !Number.isFinite(x) ? '-' : x.toFixed(3));
 
-function table(results: (ScreenResult & { file: string })[], classes: string[], modelVersion: string): string {
-	const head = ['id', 'verdict', 'family c/crit', ...classes.map((c) => `${c} c/crit`), 'note'];
+function table(
+	results: (ScreenResult & { file: string; resembles?: { material: string; ratio: number } | null })[],
+	classes: string[],
+	modelVersion: string,
+	showPath: boolean,
+	showResembles: boolean
+): string {
+	const head = ['id', 'verdict', ...(showPath ? ['path'] : []), 'family c/crit', ...classes.map((c) => `${c} c/crit`), ...(showResembles ? ['resembles'] : []), 'note'];
 	const rows = results.map((r) => [
 		r.id,
 		r.verdict === 'suspect' ? `suspect:${r.profile}${r.ambiguous ? ' (ambiguous)' : ''}` : r.verdict,
+		...(showPath ? [describePath(r.verdict, r.path, r.levels)] : []),
 		r.family ? f3(r.family.c / r.family.cCrit) : '-',
 		...classes.map((c) => (r.classes[c] ? `${f3(r.classes[c].c / r.classes[c].cCrit)}${r.classes[c].accepted ? ' accept' : ''}` : '-')),
+		...(showResembles ? [r.resembles ? `${r.resembles.material} (${f3(r.resembles.ratio)})` : r.verdict === 'not-this-material' ? 'none' : ''] : []),
 		r.reason ?? ''
 	]);
 	const width = head.map((h, i) => Math.max(h.length, ...rows.map((row) => row[i].length)));

@@ -22,7 +22,7 @@ describe('lotgate command line on the gasoline CSV (Kalivas 1997)', () => {
 		expect(out.modelVersion).toMatch(/^sha256:/);
 		expect(out.results.length).toBe(60);
 		const r = out.results[0];
-		expect(Object.keys(r)).toEqual(['id', 'verdict', 'profile', 'ambiguous', 'reason', 'family', 'classes']);
+		expect(Object.keys(r)).toEqual(['id', 'verdict', 'profile', 'ambiguous', 'reason', 'family', 'classes', 'path', 'levels']);
 		expect(Object.keys(r.family)).toEqual(['scores', 't2', 'spe', 'h', 'v', 'c', 't2Limit', 'speLimit', 'cCrit', 'cOutlier', 'accepted']);
 		expect(r.id).toBe('G01');
 		expect(['genuine', 'not-this-material']).toContain(r.verdict);
