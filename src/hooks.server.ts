@@ -9,6 +9,7 @@ import { acceptedRequestId, bodyLimit, isConnectionError, limitBody } from '$lib
 import { plainPage } from '$lib/server/plain-page';
 import { installJobs, startWorkers, stopJobs } from '$lib/server/jobs';
 import { instrumentForToken } from '$lib/server/tokens';
+import { startCheckpoints, stopCheckpoints } from '$lib/server/audit-checkpoint';
 
 const PUBLIC_PREFIXES = ['/login', '/auth/', '/health', '/_app/', '/favicon'];
 const isPublic = (path: string) => PUBLIC_PREFIXES.some((p) => path === p || path.startsWith(p));
@@ -177,8 +178,11 @@ export const init: ServerInit = async () => {
 			setTimeout(start, 10_000).unref();
 		});
 	void start();
+	// Audit checkpoints outside the database: one now, then hourly (and one with every certificate).
+	startCheckpoints();
 	// adapter-node's graceful shutdown: release the job workers and the pool so the process can exit.
 	process.once('sveltekit:shutdown' as never, async () => {
+		stopCheckpoints();
 		await stopJobs().catch(() => {});
 		await closeDatabase().catch(() => {});
 	});

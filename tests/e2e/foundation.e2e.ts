@@ -23,7 +23,7 @@ const DEMO = [
 ] as const;
 
 function verifyAudit() {
-	return spawnSync('npx', ['tsx', 'scripts/audit-verify.ts'], { encoding: 'utf8', env: { ...process.env, DATABASE_URL: inject('databaseUrl') } });
+	return spawnSync('npx', ['tsx', 'scripts/audit-verify.ts'], { encoding: 'utf8', env: { ...process.env, DATABASE_URL: inject('databaseUrl'), LOTGATE_AUDIT_KEY: inject('auditKey'), LOTGATE_AUDIT_CHECKPOINT_DIR: inject('auditCheckpointDir') } });
 }
 
 describe('sign-in and roles', () => {

@@ -1,6 +1,8 @@
 // Browser tests: the built app on a loopback port against its own fresh, seeded database.
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
-import { resolve } from 'node:path';
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
 import type { TestProject } from 'vitest/node';
 import { ensureDatabase, projectRoot, startCluster } from '../../scripts/lib/postgres';
 
@@ -20,9 +22,11 @@ export default async function setup(project: TestProject) {
 		PORT: String(port),
 		HOST: '127.0.0.1',
 		ORIGIN: `http://127.0.0.1:${port}`,
-		BODY_SIZE_LIMIT: '256M'
+		BODY_SIZE_LIMIT: '256M',
+		LOTGATE_AUDIT_KEY: 'e2e-test-audit-key-0123456789',
+		LOTGATE_AUDIT_CHECKPOINT_DIR: mkdtempSync(join(tmpdir(), 'lotgate-e2e-checkpoints-'))
 	};
-	Object.assign(process.env, { DATABASE_URL: url });
+	Object.assign(process.env, { DATABASE_URL: url, LOTGATE_AUDIT_KEY: env.LOTGATE_AUDIT_KEY, LOTGATE_AUDIT_CHECKPOINT_DIR: env.LOTGATE_AUDIT_CHECKPOINT_DIR });
 	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');
 	const { migrate } = await import('../../src/lib/server/db/migrate');
 	const { seedDemo } = await import('../../src/lib/server/demo/seed');
@@ -45,6 +49,8 @@ export default async function setup(project: TestProject) {
 	await waitFor(`${baseUrl}/login`);
 	project.provide('baseUrl', baseUrl);
 	project.provide('databaseUrl', url);
+	project.provide('auditKey', env.LOTGATE_AUDIT_KEY);
+	project.provide('auditCheckpointDir', env.LOTGATE_AUDIT_CHECKPOINT_DIR);
 	return async () => {
 		await stopProcess(app);
 		await mail?.close();

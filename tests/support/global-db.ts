@@ -1,4 +1,7 @@
 // Integration tests: the real PostgreSQL on loopback, a fresh database per run, migrations applied.
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import type { TestProject } from 'vitest/node';
 import { ensureDatabase, startCluster } from '../../scripts/lib/postgres';
 
@@ -11,11 +14,15 @@ export default async function setup(project: TestProject) {
 	await migrate(sequelize(), { quiet: true });
 	await closeDatabase();
 	project.provide('databaseUrl', url);
+	// The audit key and checkpoint folder live outside the database, as in production: a fresh folder per run.
+	project.provide('auditCheckpointDir', mkdtempSync(join(tmpdir(), 'lotgate-checkpoints-')));
 }
 
 declare module 'vitest' {
 	export interface ProvidedContext {
 		databaseUrl: string;
 		baseUrl: string;
+		auditCheckpointDir: string;
+		auditKey: string;
 	}
 }

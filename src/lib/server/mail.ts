@@ -4,7 +4,7 @@ import nodemailer, { type Transporter } from 'nodemailer';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { sequelize } from './db';
 
-export type MailKind = 'certificate' | 'alert';
+export type MailKind = 'certificate' | 'alert' | 'audit-checkpoint';
 export type MailState = 'queued' | 'sent' | 'failed' | 'skipped';
 
 /** Attempts before a message is marked failed (the job's retry limit is one less). */

@@ -154,6 +154,8 @@ export interface CertificateContent {
 		twoPersonReason?: string;
 	};
 	signatures: CertificateSignature[];
+	/** The audit trail's last event when the certificate was issued (a checkpoint is written with it). */
+	auditHead?: { seq: number; hash: string } | null;
 	caution: string;
 }
 
@@ -397,6 +399,7 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 		facts([['Supersedes', `disposition #${s.id} (${s.decision}${s.effectiveAtText ? `, ${s.effectiveAtText}` : ''}), which stays on record`]]);
 	}
 	facts([['Signed record hash', `SHA-256 ${content.disposition.recordHash}`]]);
+	if (content.auditHead) facts([['Audit trail at issue', `event #${content.auditHead.seq}, head ${content.auditHead.hash}`]]);
 	for (const s of content.signatures) {
 		ensure(70);
 		doc.moveDown(0.3);

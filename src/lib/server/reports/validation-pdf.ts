@@ -15,7 +15,8 @@ const ci = (i: { estimate: number | null; lower: number; upper: number }) => `${
 // The Latin subset has no Greek letters: spell them out rather than print empty boxes.
 const latin = (s: string) => s.replace(/α/g, 'alpha').replace(/γ/g, 'gamma').replace(/[₀-₉]/g, (d) => String(d.charCodeAt(0) - 0x2080)).replace(/[^\u0000-\u024f]/g, '?');
 
-export async function validationPdf(v: PublicVersion): Promise<Buffer> {
+/** `auditHead`: the audit trail's last event when the report is issued, printed so the report can be placed in the trail. */
+export async function validationPdf(v: PublicVersion, auditHead: { seq: number; hash: string } | null = null): Promise<Buffer> {
 	const doc = new PDFDocument({ size: 'A4', margin: 48, info: { Title: `Validation report ${v.label}`, Author: 'Lotgate', Subject: 'Model version validation' } });
 	const dir = fontDir();
 	doc.registerFont('body', join(dir, FONT.regular));
@@ -107,6 +108,7 @@ export async function validationPdf(v: PublicVersion): Promise<Buffer> {
 	p('Lifecycle per USP <1039> Chemometrics (development, validation, monitoring, update): this version is frozen with its parent, parameters, training membership and exclusions. Challenge set per USP <856>/<1856> (near-infrared spectroscopy). Electronic signature per 21 CFR 11.50/11.70.');
 	doc.moveDown(1);
 	doc.font('body').fontSize(9).fillColor('#5b6770').text(latin(SCREENING_CAUTION), { width });
+	if (auditHead) doc.moveDown(0.5).text(`Audit trail at issue: event #${auditHead.seq}, head ${auditHead.hash}`, { width });
 	doc.end();
 	return done;
 }

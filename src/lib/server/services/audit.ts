@@ -1,6 +1,7 @@
 import canonicalize from 'canonicalize';
-import { createHash } from 'node:crypto';
+import { createHash, createHmac } from 'node:crypto';
 import { Op, QueryTypes, type Transaction, type WhereOptions } from 'sequelize';
+import { auditKey } from '../audit-key';
 import { models, runBeforeCommit, sequelize } from '../db';
 import type { Actor } from './actor';
 import { cleanText } from './errors';
@@ -18,7 +19,7 @@ export interface AuditInput {
 	reason?: string | null;
 }
 
-interface HashedFields {
+export interface HashedFields {
 	at: string;
 	actorId: number | null;
 	actorLabel: string;
@@ -31,17 +32,26 @@ interface HashedFields {
 	requestId: string | null;
 }
 
-/** hash = sha256(previous hash + canonical JSON (RFC 8785) of the row's recorded fields). */
-export function chainHash(prevHash: string, fields: HashedFields): string {
-	return createHash('sha256')
-		.update(prevHash + canonicalize(fields))
-		.digest('hex');
+/**
+ * hash = HMAC-SHA-256(key, previous hash + RFC 8785 canonical JSON of the row's recorded fields), keyed by
+ * LOTGATE_AUDIT_KEY, which the database never sees: an edit cannot be hidden by recomputing the chain.
+ * Rows written before the key was introduced (id ≤ audit_chain.legacy_until) keep their plain SHA-256 (`key` null).
+ */
+export function chainHash(prevHash: string, fields: HashedFields, key: Buffer | null): string {
+	const text = prevHash + canonicalize(fields);
+	return (key ? createHmac('sha256', key) : createHash('sha256')).update(text).digest('hex');
 }
 
-/** JSON round trip so what is hashed equals what jsonb gives back (Dates become strings, undefined drops). */
-function plain(value: unknown): unknown {
-	return value === undefined ? null : JSON.parse(JSON.stringify(value));
+/**
+ * Exactly what PostgreSQL will hand back: a JSON round trip (Dates become strings, undefined drops) and every string
+ * made well-formed (the driver sends an unpaired surrogate as U+FFFD). The boundary refuses such text; this keeps the
+ * hash equal to the stored row even if some path forgot to.
+ */
+function storable(value: unknown): unknown {
+	if (value === undefined) return null;
+	return JSON.parse(JSON.stringify(value), (_k, v) => (typeof v === 'string' ? wellFormed(v) : v));
 }
+const wellFormed = (s: string) => s.replace(/[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/g, '\uFFFD');
 
 const queued = new WeakMap<Transaction, { actor: Actor; input: AuditInput }[]>();
 
@@ -53,12 +63,13 @@ const queued = new WeakMap<Transaction, { actor: Actor; input: AuditInput }[]>()
 export async function record(tx: Transaction, actor: Actor, input: AuditInput): Promise<void> {
 	// The last net for text that reached a service without a schema: refusing here rolls the whole change back.
 	if (input.reason != null) input = { ...input, reason: cleanText(String(input.reason), 'reason', 'multiline') };
+	const event = { actor, input: { ...input, before: storable(input.before), after: storable(input.after) } };
 	const pending = queued.get(tx);
 	if (pending) {
-		pending.push({ actor, input: { ...input, before: plain(input.before), after: plain(input.after) } });
+		pending.push(event);
 		return;
 	}
-	const events = [{ actor, input: { ...input, before: plain(input.before), after: plain(input.after) } }];
+	const events = [event];
 	if (runBeforeCommit(tx, () => append(tx, events))) {
 		queued.set(tx, events);
 		return;
@@ -66,75 +77,156 @@ export async function record(tx: Transaction, actor: Actor, input: AuditInput): 
 	await append(tx, events);
 }
 
+const COLUMNS = 'id, at, actor_id, actor_label, action, entity, entity_id, before, after, reason, request_id, prev_hash, hash';
+
+/** The hashed fields of a row as PostgreSQL returns it: the one definition used to write and to verify. */
+function fieldsOf(row: Record<string, unknown>): HashedFields {
+	return {
+		at: (row.at as Date).toISOString(),
+		actorId: row.actor_id == null ? null : Number(row.actor_id),
+		actorLabel: row.actor_label as string,
+		action: row.action as string,
+		entity: row.entity as string,
+		entityId: (row.entity_id as string | null) ?? null,
+		before: row.before ?? null,
+		after: row.after ?? null,
+		reason: (row.reason as string | null) ?? null,
+		requestId: (row.request_id as string | null) ?? null
+	};
+}
+
 /** Takes the chain lock, then writes the events in order, each hashed onto the one before. */
 async function append(tx: Transaction, events: { actor: Actor; input: AuditInput }[]) {
-	const { AuditEvent } = models();
-	await sequelize().query('SELECT pg_advisory_xact_lock(:key)', { replacements: { key: CHAIN_LOCK }, transaction: tx });
-	const last = await AuditEvent.findOne({ order: [['id', 'DESC']], attributes: ['hash'], transaction: tx });
+	const db = sequelize();
+	const key = auditKey();
+	await db.query('SELECT pg_advisory_xact_lock(:key)', { replacements: { key: CHAIN_LOCK }, transaction: tx });
+	const [last] = await db.query<{ hash: string }>('SELECT hash FROM audit_events ORDER BY id DESC LIMIT 1', { type: QueryTypes.SELECT, transaction: tx });
 	let prevHash = last?.hash ?? GENESIS_HASH;
 	for (const { actor, input } of events) {
 		const fields: HashedFields = {
 			at: new Date().toISOString(),
 			actorId: actor.id,
-			actorLabel: actor.label,
+			actorLabel: wellFormed(actor.label),
 			action: input.action,
 			entity: input.entity,
-			entityId: input.entityId == null ? null : String(input.entityId),
+			entityId: input.entityId == null ? null : wellFormed(String(input.entityId)),
 			before: input.before ?? null,
 			after: input.after ?? null,
-			reason: input.reason ?? null,
+			reason: input.reason == null ? null : wellFormed(input.reason),
 			requestId: actor.requestId ?? null
 		};
-		const hash = chainHash(prevHash, fields);
-		await AuditEvent.create({ ...fields, at: new Date(fields.at), prevHash, hash }, { transaction: tx });
+		const hash = chainHash(prevHash, fields, key);
+		const [stored] = await db.query<Record<string, unknown>>(
+			`INSERT INTO audit_events (at, actor_id, actor_label, action, entity, entity_id, before, after, reason, request_id, prev_hash, hash)
+			 VALUES (:at, :actorId, :actorLabel, :action, :entity, :entityId, CAST(:before AS jsonb), CAST(:after AS jsonb), :reason, :requestId, :prevHash, :hash)
+			 RETURNING ${COLUMNS}`,
+			{
+				replacements: { ...fields, before: fields.before == null ? null : JSON.stringify(fields.before), after: fields.after == null ? null : JSON.stringify(fields.after), prevHash, hash },
+				type: QueryTypes.SELECT,
+				transaction: tx
+			}
+		);
+		// The hash must cover what was stored, not what was meant: checked on the row as read back, or nothing commits.
+		if (chainHash(prevHash, fieldsOf(stored), key) !== hash) {
+			throw new Error(`audit event "${input.action}" would be stored differently from how it was hashed; nothing was committed`);
+		}
 		prevHash = hash;
 	}
 }
 
-export interface ChainReport {
-	ok: boolean;
-	checked: number;
-	firstBroken?: { id: number; reason: string };
+export interface BrokenRow {
+	id: number;
+	reason: string;
 }
 
-/** Recomputes the whole chain in id order and names the first row that does not match. */
-export async function verifyChain(): Promise<ChainReport> {
+export interface ChainReport {
+	ok: boolean;
+	/** Rows read. */
+	checked: number;
+	/** Every row that fails, in id order (the list is capped at `listLimit`; `brokenCount` counts them all). */
+	broken: BrokenRow[];
+	brokenCount: number;
+	/** The first broken row (kept for callers that name only one). */
+	firstBroken?: BrokenRow;
+	head: { seq: number; hash: string } | null;
+	legacyUntil: number;
+	/** The comparison with the latest checkpoint, when one was given. */
+	checkpoint?: { seq: number; head: string; at: string; ok: boolean; reason?: string };
+}
+
+export interface ChainAnchor {
+	seq: number;
+	head: string;
+	at: string;
+	legacyUntil: number;
+}
+
+/** Where the legacy (unkeyed) prefix of the chain ends; rows after it are HMAC-chained. */
+export async function legacyUntil(): Promise<number> {
+	const rows = await sequelize().query<{ legacy_until: string }>('SELECT legacy_until FROM audit_chain WHERE id = 1', { type: QueryTypes.SELECT });
+	return rows[0] ? Number(rows[0].legacy_until) : 0;
+}
+
+/** The newest row: what a checkpoint records and what a certificate prints. */
+export async function head(tx?: Transaction): Promise<{ seq: number; hash: string } | null> {
+	const [row] = await sequelize().query<{ id: string; hash: string }>('SELECT id, hash FROM audit_events ORDER BY id DESC LIMIT 1', { type: QueryTypes.SELECT, transaction: tx });
+	return row ? { seq: Number(row.id), hash: row.hash } : null;
+}
+
+/**
+ * Recomputes the whole chain in id order and reports every row that does not match, carrying on past each break
+ * (the next row is checked against the stored hash before it). With a checkpoint, also requires that the row it names
+ * is still there with the same hash: a deleted tail or an emptied table fails even though what is left links up.
+ */
+export async function verifyChain(options: { checkpoint?: ChainAnchor | null; listLimit?: number; key?: Buffer } = {}): Promise<ChainReport> {
+	const { checkpoint = null, listLimit = 10_000 } = options;
+	const key = options.key ?? auditKey();
+	const legacy = await legacyUntil();
 	const batch = 2000;
+	const broken: BrokenRow[] = [];
+	let brokenCount = 0;
+	const fail = (id: number, reason: string) => {
+		brokenCount++;
+		if (broken.length < listLimit) broken.push({ id, reason });
+	};
 	let prevHash = GENESIS_HASH;
 	let checked = 0;
 	let afterId = 0;
+	let head: ChainReport['head'] = null;
+	let atCheckpoint: string | null = null;
 	for (;;) {
-		const rows = await sequelize().query<Record<string, unknown>>(
-			`SELECT id, at, actor_id, actor_label, action, entity, entity_id, before, after, reason, request_id, prev_hash, hash
-			   FROM audit_events WHERE id > :afterId ORDER BY id LIMIT :batch`,
-			{ replacements: { afterId, batch }, type: QueryTypes.SELECT }
-		);
-		if (!rows.length) return { ok: true, checked };
+		const rows = await sequelize().query<Record<string, unknown>>(`SELECT ${COLUMNS} FROM audit_events WHERE id > :afterId ORDER BY id LIMIT :batch`, {
+			replacements: { afterId, batch },
+			type: QueryTypes.SELECT
+		});
+		if (!rows.length) break;
 		for (const row of rows) {
 			const id = Number(row.id);
+			const stored = row.hash as string;
 			if (row.prev_hash !== prevHash) {
-				return { ok: false, checked, firstBroken: { id, reason: 'its previous-hash does not match the row before it' } };
+				fail(id, checked === 0 && prevHash === GENESIS_HASH ? 'it is the first row left but does not start the chain (rows before it were deleted)' : 'its previous-hash does not match the row before it (a row was deleted, inserted or reordered)');
+			} else if (chainHash(prevHash, fieldsOf(row), id <= legacy ? null : key) !== stored) {
+				fail(id, 'its content does not match its stored hash (changed after it was written, or the chain was recomputed without the audit key)');
 			}
-			const expected = chainHash(prevHash, {
-				at: (row.at as Date).toISOString(),
-				actorId: (row.actor_id as number | null) ?? null,
-				actorLabel: row.actor_label as string,
-				action: row.action as string,
-				entity: row.entity as string,
-				entityId: (row.entity_id as string | null) ?? null,
-				before: row.before ?? null,
-				after: row.after ?? null,
-				reason: (row.reason as string | null) ?? null,
-				requestId: (row.request_id as string | null) ?? null
-			});
-			if (expected !== row.hash) {
-				return { ok: false, checked, firstBroken: { id, reason: 'its content does not match its stored hash (changed after it was written)' } };
-			}
-			prevHash = row.hash as string;
+			if (checkpoint && id === checkpoint.seq) atCheckpoint = stored;
+			prevHash = stored;
 			afterId = id;
+			head = { seq: id, hash: stored };
 			checked++;
 		}
 	}
+	const report: ChainReport = { ok: brokenCount === 0, checked, broken, brokenCount, firstBroken: broken[0], head, legacyUntil: legacy };
+	if (checkpoint) {
+		let reason: string | undefined;
+		if (checkpoint.legacyUntil !== legacy) reason = `the unkeyed prefix now ends at #${legacy}, but the checkpoint recorded #${checkpoint.legacyUntil}`;
+		else if (!head) reason = `the audit table is empty, but the checkpoint of ${checkpoint.at} recorded ${checkpoint.seq} as its last event (truncated)`;
+		else if (head.seq < checkpoint.seq) reason = `the last event is #${head.seq}, but the checkpoint of ${checkpoint.at} recorded #${checkpoint.seq} (events at the end were deleted)`;
+		else if (atCheckpoint == null) reason = `event #${checkpoint.seq}, the head at the checkpoint of ${checkpoint.at}, is missing`;
+		else if (atCheckpoint !== checkpoint.head) reason = `event #${checkpoint.seq} no longer has the hash the checkpoint of ${checkpoint.at} recorded (the chain was rewritten)`;
+		report.checkpoint = { seq: checkpoint.seq, head: checkpoint.head, at: checkpoint.at, ok: !reason, ...(reason ? { reason } : {}) };
+		if (reason) report.ok = false;
+	}
+	return report;
 }
 
 export interface AuditQuery {

@@ -9,6 +9,7 @@ import { z } from 'zod';
 import { SCREENING_CAUTION } from '../../caution';
 import { DEFAULT_TIME_ZONE, formatZoned } from '../../signature-time';
 import { sequelize, transaction } from '../db';
+import { checkpointSoon } from '../audit-checkpoint';
 import { queueMail } from '../mail';
 import { certificateDocumentHash, renderCertificate, type CertificateContainer, type CertificateContent, type CertificateStats } from '../reports/certificate-pdf';
 import { hasRole, type Actor } from './actor';
@@ -414,7 +415,9 @@ async function takeEffect(tx: Transaction, actor: Actor, dispositionId: number, 
 			reason: `disposition ${dispositionId}: ${DECISION_TEXT[decision]}`
 		});
 	}
-	const content = await certificateContent(dispositionId, { timeZone: timeZone() }, tx);
+	const content = await certificateContent(dispositionId, { timeZone: timeZone(), auditHead: await audit.head(tx) }, tx);
+	// The checkpoint goes out once the certificate and its audit events are committed.
+	tx.afterCommit(() => checkpointSoon(`certificate of disposition ${dispositionId}`));
 	const pdf = await renderCertificate(content);
 	const sha256 = createHash('sha256').update(pdf).digest('hex');
 	const [cert] = await sequelize().query<{ id: number }>(
@@ -471,7 +474,7 @@ function stats(s: Record<string, unknown> | null | undefined): CertificateStats 
  * The certificate's content, only from data that never changes once signed: the signed record, the signatures, the
  * counted scans' stored results and the model artefact. Rebuilding it later therefore gives the same content.
  */
-export async function certificateContent(dispositionId: number, options: { timeZone: string }, tx?: Transaction): Promise<CertificateContent> {
+export async function certificateContent(dispositionId: number, options: { timeZone: string; auditHead?: { seq: number; hash: string } | null }, tx?: Transaction): Promise<CertificateContent> {
 	const d = await row(dispositionId, tx);
 	if (!d.effective_at) throw conflict('Only a disposition in effect has a certificate');
 	const record = d.record;
@@ -599,6 +602,7 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 			recordHash: s.recordHash,
 			role: i === 0 ? 'first' : 'second'
 		})),
+		auditHead: options.auditHead ?? null,
 		caution: SCREENING_CAUTION
 	};
 }
@@ -631,7 +635,7 @@ export async function certificate(lotRef: number | string, dispositionId?: numbe
 export async function regenerate(dispositionId: number): Promise<{ pdf: Buffer; sha256: string; matchesStored: boolean }> {
 	const d = await row(dispositionId);
 	const stored = await certificate(Number(d.lot_id), dispositionId);
-	const content = await certificateContent(dispositionId, { timeZone: stored.content.timeZone });
+	const content = await certificateContent(dispositionId, { timeZone: stored.content.timeZone, auditHead: stored.content.auditHead ?? null });
 	const pdf = await renderCertificate(content);
 	const sha256 = createHash('sha256').update(pdf).digest('hex');
 	return { pdf, sha256, matchesStored: sha256 === stored.sha256 };

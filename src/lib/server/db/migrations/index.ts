@@ -5,6 +5,7 @@ import lots from './003-lots';
 import modelRebuilds from './004-model-rebuilds';
 import lotsExtra from './005-lots-extra';
 import disposition from './006-disposition';
+import auditAnchor from './010-audit-anchor';
 import sessionsAndDuties from './020-sessions-and-duties';
 import resultIntegrity from './030-result-integrity';
 import qualityGates from './031-quality-gates';
@@ -18,4 +19,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, sessionsAndDuties, resultIntegrity, qualityGates, auditorRole, supplierDrift];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, auditorRole, supplierDrift];
