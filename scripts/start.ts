@@ -1,9 +1,31 @@
-// `npm start`: database (embedded unless DATABASE_URL), migrations, demo seed, build, then the app on 127.0.0.1.
+// `npm start`: database (embedded unless DATABASE_URL), migrations, demo seed, build (only when the sources or the
+// lockfile changed), then the app on 127.0.0.1. `npm run serve` serves an existing build without any of this.
 import { spawn, spawnSync } from 'node:child_process';
-import { writeFileSync } from 'node:fs';
+import { createHash } from 'node:crypto';
+import { existsSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { buildIsCurrent, sourceHash } from './lib/build-stamp.mjs';
 import { projectRoot, stopCluster } from './lib/postgres';
 import { authSecret, dataRoot, resolveDatabase } from './lib/runtime';
+
+// A launcher killed with SIGKILL cannot stop its app; that orphan would hold the port. Stop it before starting again.
+const childPidFile = resolve(dataRoot, 'app-child.pid');
+if (existsSync(childPidFile)) {
+	const pid = Number(readFileSync(childPidFile, 'utf8'));
+	let cmdline = '';
+	try {
+		cmdline = readFileSync(`/proc/${pid}/cmdline`, 'utf8');
+	} catch {
+		// gone already
+	}
+	if (pid > 0 && cmdline.includes(resolve(projectRoot, 'build/index.js'))) {
+		console.log(`[start] stopping the app left running by an earlier start (pid ${pid})`);
+		process.kill(pid, 'SIGTERM');
+		for (let i = 0; i < 50 && existsSync(`/proc/${pid}`); i++) await new Promise((r) => setTimeout(r, 100));
+		if (existsSync(`/proc/${pid}`)) process.kill(pid, 'SIGKILL');
+	}
+	rmSync(childPidFile, { force: true });
+}
 
 const started = Date.now();
 const port = Number(process.env.PORT ?? 3000);
@@ -25,18 +47,34 @@ Object.assign(process.env, env);
 
 const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
 const { migrate } = await import('../src/lib/server/db/migrate');
-await migrate(sequelize(), { quiet: true });
-console.log('[start] migrations applied');
+const applied = await migrate(sequelize(), { quiet: true });
+console.log(`[start] migrations applied${applied.length ? ` (${applied.length} new)` : ' (none new)'}`);
+// The demo seed is idempotent but slow (it regenerates the demo spectra and hashes six passwords). It is skipped when it
+// already completed for this very database (its oid changes when it is recreated) from these very sources, and no
+// migration ran since.
+const hash = sourceHash();
 if (demo) {
-	const { seedDemo } = await import('../src/lib/server/demo/seed');
-	await seedDemo();
+	const [{ oid }] = (await sequelize().query('SELECT oid::text AS oid FROM pg_database WHERE datname = current_database()', { type: 'SELECT' })) as { oid: string }[];
+	const seedKey = createHash('sha256').update(`${url} ${oid} ${hash}`).digest('hex'); // no credentials on disk
+	const seedStamp = resolve(dataRoot, 'demo-seeded');
+	if (!applied.length && existsSync(seedStamp) && readFileSync(seedStamp, 'utf8') === seedKey) {
+		console.log('[start] demo scenario already seeded from these sources: not re-checking it');
+	} else {
+		const { seedDemo } = await import('../src/lib/server/demo/seed');
+		await seedDemo();
+		writeFileSync(seedStamp, seedKey);
+	}
 }
 await closeDatabase();
 
 if (process.env.LOTGATE_SKIP_BUILD !== '1') {
-	console.log('[start] building the app…');
-	const build = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: projectRoot, stdio: 'inherit', env });
-	if (build.status !== 0) process.exit(build.status ?? 1);
+	if (buildIsCurrent(hash)) {
+		console.log('[start] the build is current (sources and lockfile unchanged): not rebuilding');
+	} else {
+		console.log('[start] building the app…');
+		const build = spawnSync(process.execPath, [resolve(projectRoot, 'scripts/build.mjs'), '--logLevel', 'warn'], { cwd: projectRoot, stdio: 'inherit', env });
+		if (build.status !== 0) process.exit(build.status ?? 1);
+	}
 }
 
 const services = await import('./lib/services');
@@ -44,9 +82,26 @@ const smtp = demo ? await services.startMailFake(env) : null;
 
 const app = spawn(process.execPath, [resolve(projectRoot, 'build/index.js')], { cwd: projectRoot, stdio: 'inherit', env });
 writeFileSync(resolve(dataRoot, 'app.pid'), String(process.pid));
+if (app.pid) writeFileSync(childPidFile, String(app.pid));
 
-app.on('spawn', () => {
-	console.log(`\nLotgate is running on http://127.0.0.1:${port} (ready in ${((Date.now() - started) / 1000).toFixed(1)} s)`);
+/** Waits until the app answers, so the figure printed is the time to serving, not to spawning. */
+async function answering(): Promise<boolean> {
+	for (let i = 0; i < 600 && app.exitCode == null; i++) {
+		try {
+			const response = await fetch(`http://${!env.HOST || env.HOST === '0.0.0.0' || env.HOST === '::' ? '127.0.0.1' : env.HOST}:${port}/login`, { redirect: 'manual' });
+			await response.arrayBuffer();
+			if (response.status < 500) return true;
+		} catch {
+			// not listening yet
+		}
+		await new Promise((r) => setTimeout(r, 100));
+	}
+	return false;
+}
+
+app.on('spawn', async () => {
+	if (!(await answering())) return;
+	console.log(`\nLotgate is serving on http://127.0.0.1:${port} (ready in ${((Date.now() - started) / 1000).toFixed(1)} s)`);
 	console.log(`Database: ${embedded ? `embedded PostgreSQL, ${url}` : 'external (DATABASE_URL)'}`);
 	if (demo) {
 		const password = process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate';
@@ -62,6 +117,7 @@ async function shutdown(code = 0) {
 	stopping = true;
 	console.log('\n[start] shutting down…');
 	app.kill('SIGTERM');
+	rmSync(childPidFile, { force: true });
 	await smtp?.close();
 	if (embedded) stopCluster();
 	process.exit(code);

@@ -3,9 +3,17 @@ import { execFileSync, spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { existsSync, mkdirSync, readdirSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import pg from 'pg';
 
-export const projectRoot = resolve(dirname(new URL(import.meta.url).pathname), '..', '..');
+/** The folder holding package.json, found upwards from this file (also from its compiled copy in dist/). */
+function findProjectRoot(from: string): string {
+	for (let dir = from; ; dir = dirname(dir)) {
+		if (existsSync(resolve(dir, 'package.json'))) return dir;
+		if (dirname(dir) === dir) return from;
+	}
+}
+export const projectRoot = findProjectRoot(dirname(fileURLToPath(import.meta.url)));
 export const defaultPort = Number(process.env.LOTGATE_PG_PORT ?? 54329);
 const isRoot = process.getuid?.() === 0;
 
