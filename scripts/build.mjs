@@ -11,9 +11,13 @@ import { builtinModules } from 'node:module';
 import { relative, resolve } from 'node:path';
 import { projectRoot as root, recordBuild, sourceHash } from './lib/build-stamp.mjs';
 
+// `--dist-only` compiles dist/ alone (quick, for the command line); the stamp is then left as it was.
+const distOnly = process.argv.includes('--dist-only');
 const hash = sourceHash();
-const vite = spawnSync(process.execPath, [resolve(root, 'node_modules/vite/bin/vite.js'), 'build', ...process.argv.slice(2)], { cwd: root, stdio: 'inherit' });
-if (vite.status !== 0) process.exit(vite.status ?? 1);
+if (!distOnly) {
+	const vite = spawnSync(process.execPath, [resolve(root, 'node_modules/vite/bin/vite.js'), 'build', ...process.argv.slice(2)], { cwd: root, stdio: 'inherit' });
+	if (vite.status !== 0) process.exit(vite.status ?? 1);
+}
 
 const pkg = JSON.parse(readFileSync(resolve(root, 'package.json'), 'utf8'));
 const runtime = Object.keys(pkg.dependencies ?? {});
@@ -55,4 +59,4 @@ for (const [name, [source, contents]] of Object.entries(ENTRIES)) {
 	console.log(`[build] dist/${name}.js from ${source} (${inputs.length} source files)`);
 }
 
-recordBuild(hash);
+if (!distOnly) recordBuild(hash);
