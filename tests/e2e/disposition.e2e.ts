@@ -59,6 +59,8 @@ const nameOf = async (email: string) => (await db.query<{ name: string }>('SELEC
 async function signDisposition(page: Page, decision: 'release' | 'quarantine' | 'reject', reason: string, password: string) {
 	const form = page.getByTestId('dispose-form');
 	await form.getByRole('radio', { name: decision }).check();
+	// No meaning is pre-selected: the signer picks one (the first offered for the decision).
+	await form.getByLabel('Meaning of your signature').selectOption({ index: 1 });
 	await form.getByLabel('Reason').fill(reason);
 	await form.getByLabel('Your password (re-enter to sign)').fill(password);
 	await form.getByRole('button', { name: `Sign ${decision}` }).click();
@@ -85,13 +87,14 @@ describe('QA disposition in the browser', () => {
 		await signDisposition(qa, 'release', 'Container 4 re-tested by HPLC: within specification', 'demo-lotgate');
 		await expect(qa.getByTestId('dispose-message').textContent()).resolves.toMatch(/needs a second signature from a different QA manager/);
 		await qa.getByTestId('disposition-pending').waitFor();
-		await expect(qa.getByTestId('cosign-block').textContent()).resolves.toContain('different QA manager');
+		await expect(qa.getByTestId('waiting-second-signature').textContent()).resolves.toContain('Waiting for a second signature by another QA user');
 		expect((await db.query('SELECT status FROM lots WHERE id = $1', [lot.id])).rows[0].status).toBe('screened');
 		await qa.context().close();
 
 		const qa2 = await as('qa2@demo.test');
 		await qa2.goto(`/lots/${lot.id}`);
 		const cosign = qa2.getByTestId('cosign-form');
+		await cosign.getByLabel('Meaning of your signature').selectOption('second signature: released for use despite the failed identity');
 		await cosign.getByLabel('Your reason').fill('Reviewed the HPLC re-test record');
 		await cosign.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
 		await cosign.getByRole('button', { name: 'Sign as second QA manager' }).click();

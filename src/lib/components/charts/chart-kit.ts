@@ -120,3 +120,18 @@ export function pointTooltip(meta: PointMeta, describe: (raw: { id: string; x: n
 		}
 	};
 }
+
+/** Decimals an axis needs to name each of its points apart: none for a 2 nm grid, one for 0.5 nm, at most 4. */
+export function axisDecimals(axis: ArrayLike<number>): number {
+	let step = Infinity;
+	for (let i = 1; i < axis.length; i++) {
+		const d = Math.abs(axis[i] - axis[i - 1]);
+		if (d > 0 && d < step) step = d;
+	}
+	if (!Number.isFinite(step)) return 0;
+	for (let k = 0; k <= 4; k++) if (step * 10 ** k >= 0.999) return k;
+	return 4;
+}
+
+/** An axis position in the axis's own precision ("1758", never "1.76e+3"). */
+export const fmtAxis = (x: number, decimals: number) => (Number.isFinite(x) ? x.toFixed(decimals) : '—');

@@ -273,6 +273,15 @@ export async function dispose(actor: Actor, lotRef: number | string, input: Disp
 			type: QueryTypes.SELECT,
 			transaction: tx
 		});
+		// One pending release per lot: another release is refused; it is co-signed (or withdrawn by quarantine or reject).
+		if (data.decision === 'release' && pending.length) {
+			throw new ServiceError(
+				409,
+				'second-signature-pending',
+				`A release of lot ${lot.internal_lot} is already waiting for a second signature by another QA user. It was not signed again: co-sign the pending release, or record quarantine or reject instead.`,
+				'decision'
+			);
+		}
 		const [{ id: nextId }] = await sequelize().query<{ id: string }>("SELECT nextval('dispositions_id_seq') AS id", { type: QueryTypes.SELECT, transaction: tx });
 		const id = Number(nextId);
 		const record = await buildRecord(lotId, id, data.decision, effective?.id ?? null, tx);
@@ -642,7 +651,16 @@ export async function regenerate(dispositionId: number): Promise<{ pdf: Buffer; 
 }
 
 
-/** QA home queue: releases waiting for a second signature (not the ones this person signed first). */
+/** QA home queue: releases waiting for a second signature; the first signer sees theirs as waiting for someone else. */
 export async function queueItems(actor: Actor) {
-	return (await awaitingSecond()).filter((p) => p.signer_id !== actor.id).map((p) => ({ href: `/lots/${p.internal_lot}`, label: `${p.internal_lot} · release needs a second signature`, detail: `first signed by ${p.signer_name}` }));
+	return (await awaitingSecond()).map((p) => {
+		const mine = Number(p.signer_id) === actor.id;
+		return {
+			key: `disposition:${p.id}`,
+			internalLot: p.internal_lot,
+			href: `/lots/${p.internal_lot}`,
+			label: mine ? `${p.internal_lot} · your release waits for a second signature` : `${p.internal_lot} · release needs a second signature`,
+			detail: mine ? 'waiting for a second signature by another QA user' : `first signed by ${p.signer_name}`
+		};
+	});
 }

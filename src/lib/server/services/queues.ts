@@ -8,6 +8,8 @@ import * as modelVersions from './model-versions';
 import * as supplierStatus from './supplier-status';
 
 export interface QueueItem {
+	/** Unique within its queue by construction: the source's name, then its own id or link, numbered when repeated. */
+	key?: string;
 	href: string;
 	label: string;
 	detail?: string;
@@ -24,8 +26,9 @@ export interface Queue {
 type QueueDefinition = Omit<Queue, 'items'> & { items?: (actor: Actor) => Promise<QueueItem[]> };
 
 /** Lots for a home queue: awaiting scans (technicians) or screened and awaiting disposition (QA). */
-async function lotItems(status: 'awaiting-scans' | 'screened'): Promise<QueueItem[]> {
-	return (await lots.awaiting(status)).map((l) => ({
+async function lotItems(status: 'awaiting-scans' | 'screened', skip: Set<string> = new Set()): Promise<QueueItem[]> {
+	return (await lots.awaiting(status)).filter((l) => !skip.has(l.internalLot)).map((l) => ({
+		key: `lot:${l.id}`,
 		href: `/lots/${l.internalLot}`,
 		label: `${l.internalLot} · ${l.material.code} from ${l.supplier.code}`,
 		detail:
@@ -40,13 +43,38 @@ const QUEUES: QueueDefinition[] = [
 	{ key: 'awaiting-scans', role: 'technician', title: 'Lots awaiting scans', empty: 'No lot is waiting for scans.', action: { href: '/lots/new', label: 'Receive a lot' }, items: () => lotItems('awaiting-scans') },
 	{ key: 'model-drafts', role: 'chemometrician', title: 'Model drafts', empty: 'No draft model version is open.', action: { href: '/materials', label: 'Go to materials' }, items: (actor) => modelVersions.queueItems('chemometrician', actor) },
 	{ key: 'drift-signals', role: 'chemometrician', title: 'Supplier drift signals', empty: 'No supplier is drifting.', action: { href: '/suppliers', label: 'Suppliers' }, items: () => drift.queueItems() },
-	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.', items: async (actor) => [...(await lotItems('screened')), ...(await dispositions.queueItems(actor)), ...(await supplierStatus.queueItems(actor)), ...(await modelVersions.queueItems('qa', actor))] },
+	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.', items: async (actor) => {
+			// A lot whose release waits for a second signature shows once, as that, not also as "awaiting disposition".
+			const pending = await dispositions.queueItems(actor);
+			const pendingLots = new Set(pending.map((p) => p.internalLot));
+			return unique([
+				['lot', await lotItems('screened', pendingLots)],
+				['disposition', pending],
+				['supplier-status', await supplierStatus.queueItems(actor)],
+				['model-version', await modelVersions.queueItems('qa', actor)]
+			]);
+		} },
 	{ key: 'supplier-alerts', role: 'procurement', title: 'Open supplier alerts', empty: 'No supplier alert is open.', action: { href: '/alerts', label: 'All alerts' }, items: () => alerts.queueItems() },
 	{ key: 'admin', role: 'admin', title: 'Administration', empty: 'Users, instruments and their tokens.', action: { href: '/admin', label: 'Open admin' } },
 	{ key: 'audit-trail', role: 'auditor', title: 'Audit trail', empty: 'Every recorded change, with who, when and why; read it or export it as CSV.', action: { href: '/audit', label: 'Open the audit trail' } }
 ];
 
+/** Joins the items of several sources with keys that are unique by construction (the each-block key on the home page). */
+export function unique(sources: [string, QueueItem[]][]): QueueItem[] {
+	const seen = new Map<string, number>();
+	const out: QueueItem[] = [];
+	for (const [source, items] of sources) {
+		for (const item of items) {
+			const base = `${source}:${item.key ?? item.href}`;
+			const n = seen.get(base) ?? 0;
+			seen.set(base, n + 1);
+			out.push({ href: item.href, label: item.label, detail: item.detail, key: n ? `${base}#${n + 1}` : base });
+		}
+	}
+	return out;
+}
+
 export async function queuesFor(actor: Actor): Promise<Queue[]> {
 	const mine = QUEUES.filter((q) => actor.roles.includes(q.role));
-	return Promise.all(mine.map(async ({ items, ...queue }) => ({ ...queue, items: items ? await items(actor) : [] })));
+	return Promise.all(mine.map(async ({ items, ...queue }) => ({ ...queue, items: items ? unique([[queue.key, await items(actor)]]) : [] })));
 }

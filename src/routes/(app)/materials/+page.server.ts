@@ -3,7 +3,7 @@ import { fail, redirect } from '@sveltejs/kit';
 import { superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { QueryTypes } from 'sequelize';
-import { z } from 'zod';
+import { emailListField, splitList } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import { sequelize } from '$lib/server/db';
@@ -12,11 +12,7 @@ import { refuse } from './service-errors.server';
 import type { Actions, PageServerLoad } from './$types';
 
 const createSchema = materials.materialSchema.omit({ recipients: true }).extend({
-	recipients: z
-		.string()
-		.default('')
-		.transform((s) => s.split(/[,;\s]+/).filter(Boolean))
-		.pipe(z.array(z.string().email('Each recipient must be an e-mail address')))
+	recipients: emailListField('recipients', 50)
 });
 
 export const load = (async (event) => {
@@ -45,7 +41,7 @@ export const actions = {
 		if (!form.valid) return fail(400, { form });
 		let code: string;
 		try {
-			code = (await materials.create(actor, form.data)).code;
+			code = (await materials.create(actor, { ...form.data, recipients: splitList(form.data.recipients) })).code;
 		} catch (error) {
 			return refuse(form, error);
 		}

@@ -2,7 +2,7 @@ import { can } from '$lib/permissions';
 import { fail } from '@sveltejs/kit';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
-import { z } from 'zod';
+import { emailListField, splitList } from '$lib/server/forms';
 import { hasRole } from '$lib/server/services/actor';
 import { requireUser } from '$lib/server/guard';
 import { ServiceError } from '$lib/server/services/errors';
@@ -11,11 +11,7 @@ import type { Actions, PageServerLoad } from './$types';
 
 // The form takes contacts as one comma-separated field.
 const createSchema = suppliers.supplierSchema.extend({
-	contacts: z
-		.string()
-		.default('')
-		.transform((s) => s.split(/[,;\s]+/).filter(Boolean))
-		.pipe(z.array(z.string().email('Each contact must be an e-mail address')))
+	contacts: emailListField('contacts', 20)
 });
 
 export const load = (async (event) => {
@@ -39,7 +35,7 @@ export const actions = {
 		const form = await superValidate(event.request, zod(createSchema));
 		if (!form.valid) return fail(400, { form });
 		try {
-			const created = await suppliers.create(actor, form.data);
+			const created = await suppliers.create(actor, { ...form.data, contacts: splitList(form.data.contacts) });
 			return message(form, `Added ${created.code} · ${created.name}`);
 		} catch (error) {
 			if (error instanceof ServiceError && error.field) {

@@ -5,15 +5,25 @@ import { message, superValidate, type SuperValidated } from 'sveltekit-superform
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
 import { DEFAULT_TIME_ZONE } from '$lib/signature-time';
+import { chooseOne } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import * as mail from '$lib/server/mail';
 import { hasRole, type Actor } from '$lib/server/services/actor';
 import * as dispositions from '$lib/server/services/dispositions';
 import { ServiceError } from '$lib/server/services/errors';
+import * as lots from '$lib/server/services/lots';
 import type { LotView } from '$lib/server/services/lots';
 
-export const disposeFormSchema = dispositions.dispositionSchema;
-export const cosignFormSchema = dispositions.cosignSchema.extend({ dispositionId: z.coerce.number().int().positive() });
+// The signer chooses the decision and the meaning: the form starts with neither selected (a signed form has no default).
+const CHOOSE_DECISION = 'Choose release, quarantine or reject';
+export const disposeFormSchema = dispositions.dispositionSchema.extend({
+	decision: chooseOne(['release', 'quarantine', 'reject'], CHOOSE_DECISION),
+	meaning: z.string().trim().default('').pipe(z.string().min(3, 'Choose what your signature means').max(200))
+});
+export const cosignFormSchema = dispositions.cosignSchema.extend({
+	dispositionId: z.coerce.number().int().positive(),
+	meaning: z.string().trim().default('').pipe(z.string().min(3, 'Choose what your signature means').max(200))
+});
 
 export async function dispositionPanelData(actor: Actor, lot: LotView) {
 	const history = await dispositions.forLot(lot.id);
@@ -21,14 +31,11 @@ export async function dispositionPanelData(actor: Actor, lot: LotView) {
 	const effective = history.find((d) => d.state === 'effective') ?? null;
 	const disposeForm = await superValidate(zod(disposeFormSchema), { id: 'dispose' });
 	const cosignForm = await superValidate(zod(cosignFormSchema), { id: 'cosign' });
-	if (pending) {
-		cosignForm.data.dispositionId = pending.id;
-		cosignForm.data.meaning = dispositions.COSIGN_MEANINGS[0];
-	}
+	if (pending) cosignForm.data.dispositionId = pending.id;
 	const isQa = hasRole(actor, can.signDispositions);
 	const complete = lot.identity === 'meets' || lot.identity === 'fails';
-	disposeForm.data.decision = complete ? (lot.identity === 'meets' ? 'release' : 'quarantine') : 'quarantine';
-	disposeForm.data.meaning = dispositions.MEANINGS[disposeForm.data.decision][0];
+	// The first signer of a pending release waits for another QA user: they get no second form to sign again.
+	const waitingForOther = !!pending && pending.signatures[0]?.signerId === actor.id;
 	return {
 		history,
 		pending,
@@ -37,9 +44,10 @@ export async function dispositionPanelData(actor: Actor, lot: LotView) {
 		timeZone: process.env.LOTGATE_TIME_ZONE || DEFAULT_TIME_ZONE,
 		complete,
 		identity: lot.identity,
-		canDispose: isQa,
+		canDispose: isQa && !waitingForOther,
+		waitingForOther,
 		/** Why the current user cannot give the second signature, or null when they can. */
-		cosignBlock: !pending ? null : !isQa ? 'Only a QA manager can give the second signature.' : pending.signatures[0]?.signerId === actor.id ? 'You signed this release: a different QA manager must give the second signature.' : null,
+		cosignBlock: !pending ? null : !isQa ? 'Only a QA manager can give the second signature.' : pending.signatures[0]?.signerId === actor.id ? 'You gave the first signature. This release is waiting for a second signature by another QA user; you cannot sign it again.' : null,
 		meanings: dispositions.MEANINGS,
 		cosignMeanings: dispositions.COSIGN_MEANINGS,
 		disposeForm,
@@ -70,7 +78,7 @@ export async function disposeAction(event: RequestEvent<{ id: string }>) {
 		return fail(400, { form });
 	}
 	try {
-		const out = await dispositions.dispose(actor, event.params.id, form.data);
+		const out = await dispositions.dispose(actor, event.params.id, { ...form.data, decision: form.data.decision as dispositions.Decision });
 		form.data.password = '';
 		form.data.reason = '';
 		return message(form, out.message);
@@ -87,8 +95,8 @@ export async function cosignAction(event: RequestEvent<{ id: string }>) {
 		return fail(400, { form });
 	}
 	try {
-		const lotId = Number(event.params.id);
-		if (!Number.isSafeInteger(lotId) || lotId <= 0) return refuse(form, new ServiceError(404, 'not-found', 'Lot not found'));
+		// The lot page is reached by id or by internal lot number (the home queue links by number).
+		const lotId = await lots.resolve(event.params.id);
 		const out = await dispositions.cosign(actor, form.data.dispositionId, form.data, lotId);
 		form.data.password = '';
 		form.data.reason = '';

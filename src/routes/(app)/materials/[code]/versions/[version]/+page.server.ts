@@ -4,6 +4,7 @@ import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
 import { proseText } from '$lib/validation/text';
+import { chooseOne } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import * as versions from '$lib/server/services/model-versions';
@@ -22,7 +23,8 @@ const ids = z
 const idList = (s: string) => s.split(',').map((x) => Number(x.trim()));
 const excludeSchema = z.object({
 	entryIds: ids,
-	category: z.enum(versions.EXCLUSION_CATEGORIES, { errorMap: () => ({ message: 'Choose a reason category' }) }),
+	// Never pre-set: the person excluding chooses the category.
+	category: chooseOne(versions.EXCLUSION_CATEGORIES, 'Choose a reason category'),
 	reason: proseText(z.string().trim().min(3, 'Write why these spectra are excluded').max(2000))
 });
 const includeSchema = z.object({ entryIds: ids, reason: proseText(z.string().trim().min(3, 'Write why these spectra come back').max(2000)) });
@@ -50,7 +52,7 @@ export const actions = {
 		const form = await superValidate(event.request, zod(excludeSchema), { id: 'exclude' });
 		if (!form.valid) return fail(400, { excludeForm: form });
 		try {
-			const pending = await versions.markExclusion(actor, await versionIdFor(event.params), { ...form.data, entryIds: idList(form.data.entryIds) });
+			const pending = await versions.markExclusion(actor, await versionIdFor(event.params), { ...form.data, category: form.data.category as versions.ExclusionCategory, entryIds: idList(form.data.entryIds) });
 			return message(form, `Marked ${idList(form.data.entryIds).length} for exclusion; ${pending.exclude.length} pending. Rebuild to apply.`);
 		} catch (error) {
 			return refuse(form, error, 'excludeForm');

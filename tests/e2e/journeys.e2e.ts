@@ -1,0 +1,168 @@
+// Journeys from the practitioners' walk-through (issue 17), in Debian's Chromium: the second QA signature with both
+// QA users, creating a material and a supplier through the forms. Screenshots at desktop, tablet and phone widths.
+import { randomBytes } from 'node:crypto';
+import pg from 'pg';
+import type { Browser, Page } from 'playwright-core';
+import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
+import { demoScenario } from '../../src/lib/demo';
+import { baseUrl, launchBrowser, newContext, sessionCookie, signIn } from '../support/browser';
+import { forLot } from '../support/relabel';
+import { shoot } from '../support/screens';
+
+let browser: Browser;
+let techCookie: string;
+let db: pg.Client;
+const scenario = demoScenario();
+const tag = () => randomBytes(3).toString('hex');
+
+beforeAll(async () => {
+	browser = await launchBrowser();
+	techCookie = await sessionCookie(browser, 'technician@demo.test');
+	db = new pg.Client({ connectionString: inject('databaseUrl') });
+	await db.connect();
+});
+afterAll(async () => {
+	await db?.end();
+	await browser?.close();
+});
+
+/** Receives a demo delivery as a new lot through the API; each container file is written for this lot. */
+async function receive(lotKey: string) {
+	const spec = scenario.lots.find((l) => l.lotKey === lotKey)!;
+	const supplierLot = `${spec.supplierLot}-${tag()}`;
+	const res = await fetch(`${baseUrl()}/api/v1/lots`, {
+		method: 'POST',
+		headers: { cookie: techCookie, 'content-type': 'application/json' },
+		body: JSON.stringify({ material: spec.material, supplier: spec.supplier, supplierLot, containers: spec.files.length, receivedAt: '2025-03-04' })
+	});
+	expect(res.status, await res.clone().text()).toBe(201);
+	const lot = (await res.json()) as { id: number; internalLot: string };
+	for (const f of spec.files) {
+		const form = new FormData();
+		form.set('file', new Blob([Buffer.from(forLot(f.bytes, { material: spec.material, supplierLot, container: f.container }))]), f.name);
+		form.set('container', String(f.container));
+		const up = await fetch(`${baseUrl()}/api/v1/lots/${lot.id}/scans`, { method: 'POST', headers: { cookie: techCookie }, body: form });
+		expect(up.status, await up.clone().text()).toBe(201);
+	}
+	return lot;
+}
+
+async function as(email: string): Promise<Page> {
+	const context = await newContext(browser);
+	const page = await context.newPage();
+	const errors: string[] = [];
+	page.on('pageerror', (e) => errors.push(e.message));
+	(page as Page & { errors: string[] }).errors = errors;
+	await signIn(page, email);
+	return page;
+}
+const errorsOf = (page: Page) => (page as Page & { errors: string[] }).errors;
+
+describe('second QA signature, with both QA users', () => {
+	it('the first signer waits; the second signer’s home works and leads to the co-signature', async () => {
+		const lot = await receive('lac-diluted');
+		const qa = await as('qa@demo.test');
+		await qa.goto(`/lots/${lot.id}`);
+		const form = qa.getByTestId('dispose-form');
+		// Nothing is pre-selected on a signed form: no decision, no meaning.
+		expect(await form.getByRole('radio', { name: 'release' }).isChecked()).toBe(false);
+		expect(await form.getByRole('radio', { name: 'quarantine' }).isChecked()).toBe(false);
+		expect(await form.getByLabel('Meaning of your signature').inputValue()).toBe('');
+		// Signing without choosing is refused beside the field, and nothing is stored.
+		await form.getByLabel('Reason').fill('no decision chosen');
+		await form.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
+		await form.getByRole('button', { name: 'Sign the chosen decision' }).click();
+		await expect(form.getByText('Choose release, quarantine or reject').textContent()).resolves.toBeTruthy();
+		expect((await db.query('SELECT count(*)::int AS n FROM dispositions WHERE lot_id = $1', [lot.id])).rows[0].n).toBe(0);
+
+		await form.getByRole('radio', { name: 'release' }).check();
+		await form.getByLabel('Meaning of your signature').selectOption('released for use');
+		await form.getByLabel('Reason').fill('Container 4 re-tested by HPLC: within specification');
+		await form.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
+		await form.getByRole('button', { name: 'Sign release' }).click();
+		// The first signer sees the wait, not the form again.
+		await qa.getByTestId('waiting-second-signature').waitFor();
+		await expect(qa.getByTestId('waiting-second-signature').textContent()).resolves.toContain('Waiting for a second signature by another QA user');
+		await expect(qa.getByTestId('dispose-form').count()).resolves.toBe(0);
+		await expect(qa.getByTestId('cosign-form').count()).resolves.toBe(0);
+		await shoot(qa, 'journeys-first-signer-waits');
+		await qa.goto('/');
+		const mine = qa.getByTestId('queue-qa-review').getByRole('listitem').filter({ hasText: lot.internalLot });
+		await expect(mine.count()).resolves.toBe(1);
+		await expect(mine.textContent()).resolves.toContain('waiting for a second signature by another QA user');
+
+		// The server refuses a second pending release of the lot, from anyone.
+		const qaCookie = (await qa.context().cookies()).map((c) => `${c.name}=${c.value}`).join('; ');
+		const again = await fetch(`${baseUrl()}/api/v1/lots/${lot.id}/dispositions`, {
+			method: 'POST',
+			headers: { cookie: qaCookie, 'content-type': 'application/json', origin: baseUrl() },
+			body: JSON.stringify({ decision: 'release', password: 'demo-lotgate', meaning: 'released for use', reason: 'again' })
+		});
+		expect(again.status).toBe(409);
+		expect((await again.json()).error.code).toBe('second-signature-pending');
+		expect(errorsOf(qa)).toEqual([]);
+		await qa.context().close();
+
+		// The second QA user: the home page renders (navigation, sign-out) and names the pending release.
+		const qa2 = await as('qa2@demo.test');
+		await qa2.goto('/');
+		await qa2.getByRole('heading', { name: /Good to see you/ }).waitFor();
+		await qa2.getByRole('button', { name: 'Sign out' }).waitFor();
+		const pending = qa2.getByTestId('queue-qa-review').getByRole('link', { name: `${lot.internalLot} · release needs a second signature` });
+		await shoot(qa2, 'journeys-second-signer-home');
+		await pending.click();
+		await qa2.waitForURL(/\/lots\//);
+		const cosign = qa2.getByTestId('cosign-form');
+		await expect(cosign.getByLabel('Meaning of your signature').inputValue()).resolves.toBe('');
+		await cosign.getByLabel('Meaning of your signature').selectOption('approved as second QA manager');
+		await cosign.getByLabel('Your reason').fill('Reviewed the HPLC re-test record');
+		await cosign.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
+		await cosign.getByRole('button', { name: 'Sign as second QA manager' }).click();
+		const effective = qa2.getByTestId('disposition-effective');
+		await effective.waitFor();
+		await expect(effective.getAttribute('data-decision')).resolves.toBe('release');
+		expect((await db.query('SELECT status FROM lots WHERE id = $1', [lot.id])).rows[0].status).toBe('released');
+		await shoot(qa2, 'journeys-second-signature-done');
+		expect(errorsOf(qa2)).toEqual([]);
+		await qa2.context().close();
+	});
+});
+
+describe('onboarding through the forms', () => {
+	it('creates a material with a comma-separated recipient list, and names a wrong address', async () => {
+		const page = await as('chemist@demo.test');
+		await page.goto('/materials');
+		const code = `MGS-${tag()}`.toUpperCase();
+		await page.getByLabel('Code').fill(code);
+		await page.getByLabel('Name').fill('Magnesium stearate, vegetable');
+		await page.getByLabel('Certificate recipients (comma-separated)').fill('qa@site.example, not-an-address');
+		await page.getByRole('button', { name: 'Create material' }).click();
+		const error = page.locator('.field-error').filter({ hasText: 'not-an-address' });
+		await error.waitFor();
+		await expect(error.textContent()).resolves.toContain('is not an e-mail address');
+		await expect(page.locator('body').textContent()).resolves.not.toContain('[object Object]');
+		await shoot(page, 'journeys-material-form-error');
+		await page.getByLabel('Certificate recipients (comma-separated)').fill('qa@site.example, lab@site.example');
+		await Promise.all([page.waitForURL(`**/materials/${code}`), page.getByRole('button', { name: 'Create material' }).click()]);
+		const { rows } = await db.query('SELECT name, recipients FROM materials WHERE code = $1', [code]);
+		expect(rows[0]).toEqual({ name: 'Magnesium stearate, vegetable', recipients: ['qa@site.example', 'lab@site.example'] });
+		expect(errorsOf(page)).toEqual([]);
+		await page.context().close();
+	});
+
+	it('adds a supplier with contact e-mails', async () => {
+		const page = await as('buyer@demo.test');
+		await page.goto('/suppliers');
+		const code = `SUP-${tag()}`.toUpperCase();
+		await page.getByLabel('Code').fill(code);
+		await page.getByLabel('Name').fill('Harrowgate Excipients');
+		await page.getByLabel('Contact e-mails (comma-separated)').fill('quality@harrowgate.example;orders@harrowgate.example');
+		await page.getByRole('button', { name: 'Add supplier' }).click();
+		await page.getByText(`Added ${code} · Harrowgate Excipients`).waitFor();
+		const { rows } = await db.query('SELECT name, contacts FROM suppliers WHERE code = $1', [code]);
+		expect(rows[0]).toEqual({ name: 'Harrowgate Excipients', contacts: ['quality@harrowgate.example', 'orders@harrowgate.example'] });
+		await shoot(page, 'journeys-supplier-added');
+		expect(errorsOf(page)).toEqual([]);
+		await page.context().close();
+	});
+});
