@@ -125,7 +125,7 @@ describe('second QA signature, with both QA users', () => {
 		await shoot(qa2, 'journeys-second-signature-done');
 		expect(errorsOf(qa2)).toEqual([]);
 		await qa2.context().close();
-	});
+	}, 300_000);
 });
 
 describe('onboarding through the forms', () => {
