@@ -36,11 +36,25 @@ export function convertAxis(x: ArrayLike<number>, from: AxisUnit, to: AxisUnit):
 
 const fmt = (v: number): string => String(Number(v.toPrecision(7)));
 
-/** Tolerance for "covers the range": rounding of unit conversions, never a real extrapolation. */
+/** Tolerance for "is the model grid": rounding of unit conversions only. */
 function edgeTolerance(axis: ModelAxis): number {
 	const span = Math.abs(axis.to - axis.from);
 	const step = axis.points > 1 ? span / (axis.points - 1) : span || 1;
 	return 1e-6 * step + 1e-12 * Math.max(Math.abs(axis.from), Math.abs(axis.to));
+}
+
+/** Share of the model step an edge may fall short by and still count as covered (docs/methods.md §2). */
+export const EDGE_STEP_FRACTION = 0.01;
+
+/**
+ * Tolerance for "covers the range": 1 % of the model step (plus float rounding). A file exported with a rounded axis
+ * (e.g. cm⁻¹ with 2 decimals, which is up to ~0.0004 nm off at 900 nm) may miss a model edge by far less than a step;
+ * the resampler then takes its edge value (no slope is extrapolated). A real shortfall is a step or more.
+ */
+function coverageTolerance(axis: ModelAxis): number {
+	const span = Math.abs(axis.to - axis.from);
+	const step = axis.points > 1 ? span / (axis.points - 1) : span || 1;
+	return EDGE_STEP_FRACTION * step + 1e-12 * Math.max(Math.abs(axis.from), Math.abs(axis.to));
 }
 
 interface Sorted {
@@ -109,7 +123,7 @@ export function resampleOnto(
 		if (!(s.x[i] > s.x[i - 1]))
 			return { ok: false, code: 'bad-axis', reason: `axis value ${fmt(s.x[i])} ${model.unit} occurs twice` };
 
-	const tol = edgeTolerance(model);
+	const tol = coverageTolerance(model);
 	const lo = model.from;
 	const hi = model.to;
 	const missing: string[] = [];

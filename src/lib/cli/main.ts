@@ -43,8 +43,12 @@ const USAGE = `lotgate: build and apply spectral identity models from files
                 [--folds 7] [--group-column NAME] [--spe-limit jackson-mudholkar|box|moments]
                 [--estimator moments|robust] [--max-components N] [--unit nm|cm-1|um]
                 [--meta KEY=VALUE ...] --out MODEL.json
-  lotgate screen --model MODEL.json --input FILE.csv|FILE.jdx [--input ...] [--json] [--unit nm|cm-1|um]
+  lotgate screen --model MODEL.json --input FILE.csv|FILE.jdx [FILE ...] [--input ...] [--json] [--unit nm|cm-1|um]
                  [--library OTHER.json ...]
+
+screen takes several files after one --input (e.g. --input dir/*.jdx). A file that cannot be read is reported as
+unusable with its reason and the others are still screened. Exit codes: 0 every input screened, 1 file or data
+error (e.g. the model), 2 usage error, 3 screened but some inputs were unusable.
 
 CSV: one spectrum per row; columns whose header is a number form the axis (nm unless --unit);
 the id column defaults to the first non-numeric column. Recipe steps: range(a,b), gaps(n), snv,
@@ -224,7 +228,7 @@ const levelFields = (l: LevelEvidence) => ({
 
 async function runScreen(args: string[], io: CliIo): Promise<number> {
 	const { values } = parseArgs({
-		args,
+		args: expandInputs(args),
 		strict: true,
 		options: {
 			model: { type: 'string' },
@@ -258,6 +262,19 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 		return { material: other.meta.material || basename(file, extname(file)), prepared: prepareArtefact(other) };
 	});
 	const results: (ScreenResult & { file: string; resembles?: { material: string; ratio: number } | null })[] = [];
+	// A file that cannot be read or parsed is reported as unusable with its reason; the rest are still screened.
+	const unreadable = (file: string, reason: string): ScreenResult & { file: string } => ({
+		id: basename(file),
+		verdict: 'unusable',
+		profile: null,
+		ambiguous: false,
+		reason: `the file could not be read: ${reason}`,
+		family: null,
+		classes: {},
+		path: [],
+		levels: [],
+		file
+	});
 	for (const file of values.input) {
 		const ext = extname(file).toLowerCase();
 		let inputs: SpectrumInput[];
@@ -267,14 +284,16 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 			try {
 				bytes = readFileSync(file);
 			} catch (e) {
-				throw new CliError(`${file}: cannot read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+				results.push(unreadable(file, `cannot read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`));
+				continue;
 			}
 			let parsed: ParsedLike;
 			try {
 				parsed = parse(bytes, basename(file), { allowGaps: true });
 			} catch (e) {
 				const err = e as { message: string; line?: number };
-				throw new CliError(`${file}: ${err.line ? `line ${err.line}: ` : ''}${err.message}`);
+				results.push(unreadable(file, `${err.line ? `line ${err.line}: ` : ''}${err.message}`));
+				continue;
 			}
 			inputs = parsed.spectra.map((s, k) => ({
 				id: s.id ?? s.title ?? (parsed.spectra.length > 1 ? `${basename(file)}#${k + 1}` : basename(file)),
@@ -283,7 +302,13 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 				unit: s.unit
 			}));
 		} else {
-			inputs = readSpectraCsv(readText(file, 'the input'), file, { unit, idColumn: values['id-column'], blankAsNaN: true }).spectra;
+			try {
+				inputs = readSpectraCsv(readText(file, 'the input'), file, { unit, idColumn: values['id-column'], blankAsNaN: true }).spectra;
+			} catch (e) {
+				if (!(e instanceof CliError)) throw e;
+				results.push(unreadable(file, e.message.startsWith(`${file}: `) ? e.message.slice(file.length + 2) : e.message));
+				continue;
+			}
 		}
 		for (const s of inputs) {
 			const r = screen(prep, s);
@@ -311,7 +336,40 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 		};
 		io.stdout(JSON.stringify(out, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : v), 2) + '\n');
 	} else io.stdout(table(results, artefact.classes, modelVersion, treeDepth(treeOf(artefact)) > 2, libraries.length > 0));
+	const unusable = results.filter((r) => r.verdict === 'unusable');
+	if (unusable.length) {
+		io.stderr(`lotgate: ${unusable.length} of ${results.length} input${results.length === 1 ? ' was' : 's were'} unusable (exit code ${EXIT_UNUSABLE}); the others were screened\n`);
+		return EXIT_UNUSABLE;
+	}
 	return 0;
+}
+
+/** Exit code when everything was screened but some inputs (files or spectra) were unusable. */
+export const EXIT_UNUSABLE = 3;
+
+/**
+ * `--input a.jdx b.jdx c.jdx` (what a shell glob `--input dir/*.jdx` expands to): every word after --input up to the
+ * next option is an input, written back as repeated --input for the strict parser.
+ */
+export function expandInputs(args: string[]): string[] {
+	const out: string[] = [];
+	let inInputs = false;
+	for (const a of args) {
+		if (a === '--input') {
+			inInputs = true;
+			out.push(a);
+			continue;
+		}
+		if (a.startsWith('--input=')) {
+			inInputs = true;
+			out.push(a);
+			continue;
+		}
+		if (a.startsWith('-')) inInputs = false;
+		else if (inInputs && out[out.length - 1] !== '--input') out.push('--input');
+		out.push(a);
+	}
+	return out;
 }
 
 const f3 = (x: number | undefined): string => (x === undefined || !Number.isFinite(x) ? '-' : x.toFixed(3));
@@ -338,7 +396,7 @@ function table(
 	return [`model ${modelVersion}`, line(head), line(width.map((w) => '-'.repeat(w))), ...rows.map(line)].join('\n') + '\n';
 }
 
-/** Runs the command line; returns the exit code (0 ok, 1 data or file error, 2 usage error). */
+/** Runs the command line; returns the exit code (0 ok, 1 data or file error, 2 usage error, 3 some inputs unusable). */
 export async function main(argv: string[], io: CliIo = defaultIo): Promise<number> {
 	const [command, ...rest] = argv;
 	// `lotgate build --help` asks for the usage, not for a build.

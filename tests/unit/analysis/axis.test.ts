@@ -42,6 +42,24 @@ describe('resampling onto the model axis', () => {
 		const r = resampleOnto({ axis, values: axis.map(line), unit: 'nm' }, model);
 		expect(r.ok).toBe(false);
 	});
+	test('a cm⁻¹ file exported with 2 decimals covers a 900–1700 nm model (edge tolerance 1 % of the model step, methods §2)', () => {
+		const nmModel = uniformAxis(900, 1700, 2, 'nm');
+		// 11111.11 cm⁻¹ is 900.00009 nm: short of 900 nm by 9·10⁻⁵ nm, far below 1 % of the 2 nm step.
+		const wn = [11111.11];
+		while (wn[wn.length - 1] > 5882.35 + 4) wn.push(+(wn[wn.length - 1] - 4).toFixed(2));
+		wn.push(5882.35);
+		const r = resampleOnto({ axis: wn, values: wn.map((v) => line(1e7 / v)), unit: 'cm-1' }, nmModel);
+		expect(r.ok, r.ok ? '' : r.reason).toBe(true);
+		// The first model point takes the edge value (held, not extrapolated): the line at 900.00009 nm.
+		if (r.ok) {
+			expect(r.values[0]).toBeCloseTo(line(1e7 / 11111.11), 12);
+			expect(r.values[200]).toBeCloseTo(line(1300), 6);
+		}
+		// A shortfall of a quarter step is still refused, naming the interval.
+		const short = resampleOnto({ axis: wn.slice(1), values: wn.slice(1).map((v) => line(1e7 / v)), unit: 'cm-1' }, nmModel);
+		expect(short.ok).toBe(false);
+		if (!short.ok) expect(short.reason).toMatch(/missing 900–900\.3\d* nm/);
+	});
 	test('non-finite values are refused with their count and positions', () => {
 		const axis = Array.from({ length: 101 }, (_, i) => 1000 + i);
 		const values = axis.map(line);
