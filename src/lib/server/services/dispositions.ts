@@ -11,6 +11,8 @@ import { DEFAULT_TIME_ZONE, formatZoned } from '../../signature-time';
 import { sequelize, transaction } from '../db';
 import { checkpointSoon } from '../audit-checkpoint';
 import { queueMail } from '../mail';
+import { describePath, type Identification, type LevelEvidence, type Verdict } from '../../analysis';
+import { identificationText } from './identification';
 import { certificateDocumentHash, renderCertificate, type CertificateContainer, type CertificateContent, type CertificateStats } from '../reports/certificate-pdf';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
@@ -159,6 +161,22 @@ async function buildRecord(lotId: number, dispositionId: number, decision: Decis
 }
 
 // ---------- reading ----------
+
+/**
+ * The scan's reason, followed by its model-tree path when the tree is deeper than two levels, and, for a wrong
+ * material, what it resembles (evidence only). Results without these fields read exactly as before.
+ */
+function withTreeEvidence(
+	r: { reason: string | null; verdict: string; path: string[] | null; levels: LevelEvidence[] | null; identification: Identification | null } | undefined,
+	materialCode: string | undefined
+): string | null {
+	if (!r) return null;
+	const parts = r.reason ? [r.reason] : [];
+	if (r.levels && r.levels.length > 1) parts.push(`path: ${describePath(r.verdict as Verdict, r.path ?? [], r.levels)}`);
+	const id = identificationText(r.identification, materialCode ?? 'this material');
+	if (id) parts.push(`resembles (evidence only): ${id}`);
+	return parts.length ? parts.join('; ') : null;
+}
 
 interface DispositionRow {
 	id: number;
@@ -490,8 +508,17 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 	const sigs = [await signatures.get(d.signature_id, tx), d.second_signature_id ? await signatures.get(d.second_signature_id, tx) : null].filter((s): s is signatures.Manifestation => !!s);
 	const scanIds = record.scans.map((s) => s.scanId).filter((x): x is number => x != null);
 	const results = scanIds.length
-		? await sequelize().query<{ id: number; family: Record<string, unknown> | null; classes: Record<string, Record<string, unknown>> | null; reason: string | null }>(
-				"SELECT id, result->'family' AS family, result->'classes' AS classes, reason FROM scans WHERE id IN (:ids)",
+		? await sequelize().query<{
+				id: number;
+				family: Record<string, unknown> | null;
+				classes: Record<string, Record<string, unknown>> | null;
+				reason: string | null;
+				verdict: string;
+				path: string[] | null;
+				levels: LevelEvidence[] | null;
+				identification: Identification | null;
+			}>(
+				"SELECT id, result->'family' AS family, result->'classes' AS classes, reason, verdict, result->'path' AS path, result->'levels' AS levels, result->'identification' AS identification FROM scans WHERE id IN (:ids)",
 				{ replacements: { ids: scanIds }, type: QueryTypes.SELECT, transaction: tx }
 			)
 		: [];
@@ -539,7 +566,7 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 			verdict: s.verdict,
 			profile: s.profile,
 			ambiguous: s.ambiguous,
-			reason: r?.reason ?? (s.scanId == null ? 'no valid scan at the time of the decision' : null),
+			reason: withTreeEvidence(r, record.lot.material.code) ?? (s.scanId == null ? 'no valid scan at the time of the decision' : null),
 			fileName: s.fileName,
 			sha256: s.sha256,
 			family: stats(r?.family),

@@ -6,6 +6,8 @@ import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { nameText, proseText } from '../../validation/text';
 import { makePlan, PLAN_KINDS, PLAN_LABELS, reducedPlanRefusal, type PlanKind, type SamplingPlan } from '../../analysis/sampling';
+import { describePath, type Identification, type LevelEvidence, type Verdict } from '../../analysis';
+import { identificationText } from './identification';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
@@ -337,6 +339,33 @@ export interface ModelStatsView {
 	scores: number[];
 }
 
+export interface LevelView {
+	node: string[];
+	method: string;
+	chosen: string | null;
+	accepted: string[];
+	ambiguous: boolean;
+	reason: string | null;
+	/** c/c_crit per child (one-class) or the classifier's score per child. */
+	children: { name: string; ratio: number | null; score: number | null; accepted: boolean }[];
+}
+
+function levelView(l: LevelEvidence): LevelView {
+	return {
+		node: l.node,
+		method: l.method,
+		chosen: l.chosen,
+		accepted: l.accepted,
+		ambiguous: l.ambiguous,
+		reason: l.reason,
+		children: l.children.map((c) => {
+			const st = l.stats?.[c];
+			const ratio = st && typeof st.c === 'number' && typeof st.cCrit === 'number' ? st.c / st.cCrit : null;
+			return { name: c, ratio, score: l.classifier?.scores?.[c] ?? null, accepted: l.accepted.includes(c) || l.chosen === c };
+		})
+	};
+}
+
 export interface ScanView {
 	id: number;
 	container: number;
@@ -351,6 +380,13 @@ export interface ScanView {
 	/** The latest invalidation proposal of this scan in any state (proposed, approved, refused), for the lot page. */
 	invalidation: containerResults.InvalidationView | null;
 	statistics: { family: ModelStatsView | null; classes: Record<string, ModelStatsView> } | null;
+	/** Model tree: the names chosen from level 1 down, and the result named along it (e.g. "suspect › diluted › starch"). */
+	path: string[];
+	pathLabel: string;
+	/** Evidence per level walked (one-class: c/c_crit per child; discriminant: the classifier's scores). */
+	levels: LevelView[];
+	/** For a not-this-material scan: the other materials it resembles (evidence only). */
+	identification: (Identification & { text: string | null }) | null;
 	modelVersion: { id: number; label: string } | null;
 	spectrumId: number;
 	fileName: string;
@@ -444,6 +480,7 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 	const scanRows = await sequelize().query<Record<string, unknown>>(
 		`SELECT sc.id, sc.container, sc.verdict, sc.profile, sc.ambiguous, sc.reason, sc.created_at, sc.rescreen_of, sc.spectrum_id,
 		        sc.result->'family' AS family, sc.result->'classes' AS classes,
+		        sc.result->'path' AS path, sc.result->'levels' AS levels, sc.result->'identification' AS identification,
 		        sc.model_version_id, mv.version AS model_version, sp.file_name, sp.title, sp.sha256, sp.format,
 		        i.name AS instrument, u.name AS created_by
 		   FROM scans sc JOIN spectra sp ON sp.id = sc.spectrum_id
@@ -479,6 +516,10 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 			invalidated: containerResults.invalidatedOf(invalidationOf.get(Number(r.id))),
 			invalidation: invalidationOf.get(Number(r.id)) ?? null,
 			statistics: family || classes ? { family: statsView(family), classes: Object.fromEntries(Object.entries(classes ?? {}).map(([k, s]) => [k, statsView(s)!])) } : null,
+			path: (r.path as string[] | null) ?? [],
+			pathLabel: describePath(r.verdict as Verdict, (r.path as string[] | null) ?? [], (r.levels as LevelEvidence[] | null) ?? []),
+			levels: ((r.levels as LevelEvidence[] | null) ?? []).map(levelView),
+			identification: r.identification ? { ...(r.identification as Identification), text: identificationText(r.identification as Identification, materialCode) } : null,
 			modelVersion: r.model_version_id ? { id: Number(r.model_version_id), label: `${materialCode} v${r.model_version}` } : null,
 			spectrumId: Number(r.spectrum_id),
 			fileName: displayFileName(r.file_name as string),

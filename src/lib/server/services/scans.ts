@@ -15,6 +15,7 @@ import { conflict, forbidden, invalid, notFound, ServiceError, storableFileName 
 import * as containerResults from './container-results';
 import * as lots from './lots';
 import * as qualityGates from './quality-gates';
+import * as identification from './identification';
 import { isClosed, type Identity, type LotStatus, type ScanVerdict } from './lots';
 import * as intake from './spectra';
 import { displayFileName } from '../../validation/text';
@@ -188,6 +189,8 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 	);
 	if (!material) throw notFound(`Lot ${lotRef}`);
 	const model = material.version_id ? await preparedVersion(Number(material.version_id)) : null;
+	// other materials' approved models, for naming a wrong material (loaded before the transaction, cached)
+	const others = model ? await identification.candidates(material.id, preparedVersion) : [];
 	const instrumentId = actor.instrumentId ?? file.instrumentId ?? null;
 
 	const outcome = await transaction(async (tx) => {
@@ -224,6 +227,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 				reason = `not screened: no approved model for ${material.code}`;
 			} else {
 				result = screenStored(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
+				if (result.verdict === 'not-this-material') result = { ...result, identification: await identification.forSpectrum(s, others, material.id, tx) } as ScreenResult;
 				verdict = result.verdict;
 				reason = result.reason;
 			}
