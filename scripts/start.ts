@@ -29,7 +29,7 @@ if (existsSync(childPidFile)) {
 
 const started = Date.now();
 const port = Number(process.env.PORT ?? 3000);
-const { url, embedded } = await resolveDatabase();
+const { url, ownerUrl, embedded } = await resolveDatabase();
 const demo = process.env.LOTGATE_DEMO ? process.env.LOTGATE_DEMO === '1' : embedded;
 const env: NodeJS.ProcessEnv = {
 	...process.env,
@@ -45,9 +45,13 @@ const env: NodeJS.ProcessEnv = {
 };
 Object.assign(process.env, env);
 
+// Migrations as the owner role; everything after (seed, server, workers) as the app role.
+process.env.DATABASE_URL = ownerUrl;
 const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
 const { migrate } = await import('../src/lib/server/db/migrate');
 const applied = await migrate(sequelize(), { quiet: true });
+await closeDatabase();
+process.env.DATABASE_URL = url;
 console.log(`[start] migrations applied${applied.length ? ` (${applied.length} new)` : ' (none new)'}`);
 // The demo seed is idempotent but slow (it regenerates the demo spectra and hashes six passwords). It is skipped when it
 // already completed for this very database (its oid changes when it is recreated) from these very sources, and no

@@ -74,8 +74,16 @@ function runAsServerUser(bin: string, args: string[]) {
 export interface Cluster {
 	dataDir: string;
 	port: number;
+	/** The bootstrap superuser: creates databases and roles only. */
 	urlFor(database: string): string;
+	/** The owner role: runs migrations. */
+	ownerUrlFor(database: string): string;
+	/** The app role: runs the server, seed and workers. */
+	appUrlFor(database: string): string;
 }
+
+export const OWNER_ROLE = 'lotgate_owner';
+export const APP_ROLE = 'lotgate_app';
 
 /** Initialises (first time) and starts the cluster; reuses a running one. */
 export async function startCluster(options: { port?: number; dataDir?: string } = {}): Promise<Cluster> {
@@ -85,7 +93,9 @@ export async function startCluster(options: { port?: number; dataDir?: string } 
 	const cluster: Cluster = {
 		dataDir,
 		port,
-		urlFor: (database) => `postgresql://lotgate@127.0.0.1:${port}/${database}`
+		urlFor: (database) => `postgresql://lotgate@127.0.0.1:${port}/${database}`,
+		ownerUrlFor: (database) => `postgresql://${OWNER_ROLE}@127.0.0.1:${port}/${database}`,
+		appUrlFor: (database) => `postgresql://${APP_ROLE}@127.0.0.1:${port}/${database}`
 	};
 	if (!existsSync(`${dataDir}/PG_VERSION`)) {
 		mkdirSync(dataDir, { recursive: true });
@@ -146,4 +156,56 @@ export async function ensureDatabase(cluster: Cluster, database: string, { fresh
 		await client.end();
 	}
 	return cluster.urlFor(database);
+}
+
+/**
+ * Least privilege in the embedded cluster: an owner role that owns the schema and runs migrations, and an app role that
+ * runs the server. Neither is a superuser, so neither can set session_replication_role; only the owner can ALTER or
+ * TRUNCATE; the app role's table rights are granted by `migrate()` (INSERT and SELECT only on the audit tables).
+ * Idempotent; objects a superuser created before the roles existed are handed to their owner role.
+ */
+export async function provisionRoles(cluster: Cluster, database: string) {
+	const client = new pg.Client({ connectionString: cluster.urlFor(database) });
+	await client.connect();
+	try {
+		await client.query(`
+DO $$ BEGIN
+  IF NOT EXISTS (SELECT FROM pg_roles WHERE rolname = '${OWNER_ROLE}') THEN CREATE ROLE ${OWNER_ROLE} LOGIN; END IF;
+  IF NOT EXISTS (SELECT FROM pg_roles WHERE rolname = '${APP_ROLE}') THEN CREATE ROLE ${APP_ROLE} LOGIN; END IF;
+END $$;
+ALTER ROLE ${OWNER_ROLE} NOSUPERUSER NOCREATEDB NOCREATEROLE NOREPLICATION NOBYPASSRLS;
+ALTER ROLE ${APP_ROLE} NOSUPERUSER NOCREATEDB NOCREATEROLE NOREPLICATION NOBYPASSRLS;
+ALTER DATABASE "${database}" OWNER TO ${OWNER_ROLE};
+ALTER SCHEMA public OWNER TO ${OWNER_ROLE};
+REVOKE CREATE ON SCHEMA public FROM PUBLIC;
+GRANT USAGE ON SCHEMA public TO ${APP_ROLE};
+-- pg-boss creates a table per queue at run time, so its schema belongs to the app role (it holds jobs, not records);
+-- its start-up runs CREATE SCHEMA IF NOT EXISTS, which needs CREATE on the database (new schemas only, never public).
+GRANT CONNECT, CREATE ON DATABASE "${database}" TO ${APP_ROLE};
+CREATE SCHEMA IF NOT EXISTS pgboss AUTHORIZATION ${APP_ROLE};
+ALTER SCHEMA pgboss OWNER TO ${APP_ROLE};
+DO $$ DECLARE r record; BEGIN
+  FOR r IN SELECT format('ALTER TABLE %I.%I OWNER TO %I', n.nspname, c.relname, CASE n.nspname WHEN 'pgboss' THEN '${APP_ROLE}' ELSE '${OWNER_ROLE}' END) AS q
+             FROM pg_class c JOIN pg_namespace n ON n.oid = c.relnamespace
+            WHERE n.nspname IN ('public', 'pgboss') AND c.relkind IN ('r', 'p', 'v', 'm')
+              AND pg_get_userbyid(c.relowner) <> CASE n.nspname WHEN 'pgboss' THEN '${APP_ROLE}' ELSE '${OWNER_ROLE}' END LOOP
+    EXECUTE r.q;
+  END LOOP;
+  FOR r IN SELECT format('ALTER FUNCTION %s OWNER TO %I', p.oid::regprocedure, CASE n.nspname WHEN 'pgboss' THEN '${APP_ROLE}' ELSE '${OWNER_ROLE}' END) AS q
+             FROM pg_proc p JOIN pg_namespace n ON n.oid = p.pronamespace
+            WHERE n.nspname IN ('public', 'pgboss')
+              AND pg_get_userbyid(p.proowner) <> CASE n.nspname WHEN 'pgboss' THEN '${APP_ROLE}' ELSE '${OWNER_ROLE}' END LOOP
+    EXECUTE r.q;
+  END LOOP;
+  FOR r IN SELECT format('ALTER TYPE %I.%I OWNER TO %I', n.nspname, t.typname, CASE n.nspname WHEN 'pgboss' THEN '${APP_ROLE}' ELSE '${OWNER_ROLE}' END) AS q
+             FROM pg_type t JOIN pg_namespace n ON n.oid = t.typnamespace
+            WHERE n.nspname IN ('public', 'pgboss') AND t.typtype = 'e'
+              AND pg_get_userbyid(t.typowner) <> CASE n.nspname WHEN 'pgboss' THEN '${APP_ROLE}' ELSE '${OWNER_ROLE}' END LOOP
+    EXECUTE r.q;
+  END LOOP;
+END $$;`);
+	} finally {
+		await client.end();
+	}
+	return { ownerUrl: cluster.ownerUrlFor(database), appUrl: cluster.appUrlFor(database) };
 }

@@ -1,4 +1,5 @@
-import { describe, expect, it } from 'vitest';
+import pg from 'pg';
+import { describe, expect, inject, it } from 'vitest';
 import { QueryTypes } from 'sequelize';
 import { sequelize, transaction } from '../../src/lib/server/db';
 import * as audit from '../../src/lib/server/services/audit';
@@ -14,25 +15,36 @@ describe('audit trail', () => {
 		expect(report.checked).toBeGreaterThan(0);
 	});
 
-	it('refuses UPDATE and DELETE through the database trigger', async () => {
-		await expect(sequelize().query("UPDATE audit_events SET reason = 'rewritten'")).rejects.toThrow(/append-only/);
-		await expect(sequelize().query('DELETE FROM audit_events')).rejects.toThrow(/append-only/);
+	it('refuses UPDATE and DELETE: the app role has no such right, and the trigger stops even the owner', async () => {
+		await expect(sequelize().query("UPDATE audit_events SET reason = 'rewritten'")).rejects.toThrow(/permission denied/);
+		await expect(sequelize().query('DELETE FROM audit_events')).rejects.toThrow(/permission denied/);
+		const owner = new pg.Client({ connectionString: inject('ownerDatabaseUrl') });
+		await owner.connect();
+		try {
+			await expect(owner.query("UPDATE audit_events SET reason = 'rewritten'")).rejects.toThrow(/append-only/);
+			await expect(owner.query('DELETE FROM audit_events')).rejects.toThrow(/append-only/);
+		} finally {
+			await owner.end();
+		}
 	});
 
 	it('names the first tampered row, and verifies again once it is restored', async () => {
 		const action = `test.tamper-target-${Date.now()}`;
 		await transaction((tx) => audit.record(tx, rootActor, { action, entity: 'test', reason: 'original' }));
 		const [{ id }] = await sequelize().query<{ id: number }>('SELECT id::int AS id FROM audit_events WHERE action = :action', { replacements: { action }, type: QueryTypes.SELECT });
-		// Tampering needs the trigger off: only a database owner can do this, and the chain still exposes it.
-		await sequelize().query('ALTER TABLE audit_events DISABLE TRIGGER audit_events_no_update');
+		// Tampering needs the trigger off: only the database owner can do this, and the chain still exposes it.
+		const owner = new pg.Client({ connectionString: inject('ownerDatabaseUrl') });
+		await owner.connect();
+		await owner.query('ALTER TABLE audit_events DISABLE TRIGGER audit_events_no_update');
 		try {
-			await sequelize().query("UPDATE audit_events SET reason = 'tampered' WHERE id = :id", { replacements: { id } });
+			await owner.query("UPDATE audit_events SET reason = 'tampered' WHERE id = $1", [id]);
 			const broken = await audit.verifyChain();
 			expect(broken.ok).toBe(false);
 			expect(broken.firstBroken?.id).toBe(id);
-			await sequelize().query("UPDATE audit_events SET reason = 'original' WHERE id = :id", { replacements: { id } });
+			await owner.query("UPDATE audit_events SET reason = 'original' WHERE id = $1", [id]);
 		} finally {
-			await sequelize().query('ALTER TABLE audit_events ENABLE TRIGGER audit_events_no_update');
+			await owner.query('ALTER TABLE audit_events ENABLE TRIGGER audit_events_no_update');
+			await owner.end();
 		}
 		expect((await audit.verifyChain()).ok).toBe(true);
 	});

@@ -13,7 +13,7 @@ import { readCheckpoints, writeCheckpoint } from '../../src/lib/server/audit-che
 import { rootActor, unique } from '../support/factories';
 
 /** The owner's connection: the role that runs migrations (and the one an insider with its password would use). */
-const ownerUrl = () => inject('ownerDatabaseUrl' as never) ?? inject('databaseUrl');
+const ownerUrl = () => inject('ownerDatabaseUrl');
 let owner: pg.Client;
 
 function verifyCli() {
@@ -195,5 +195,41 @@ describe('audit:verify', () => {
 			writeFileSync(checkpointFile(), lines.slice(0, -1).join('\n') + '\n');
 		}
 		expect(verifyCli().status).toBe(0);
+	});
+});
+
+describe('least privilege (the app role)', () => {
+	const app = () => sequelize();
+	it('is not a superuser and may not switch replication mode (which would skip the triggers)', async () => {
+		const [me] = await app().query<{ rolsuper: boolean; current_user: string }>('SELECT rolsuper, current_user FROM pg_roles WHERE rolname = current_user', { type: QueryTypes.SELECT });
+		expect(me).toMatchObject({ rolsuper: false, current_user: 'lotgate_app' });
+		await expect(app().query('SET session_replication_role = replica')).rejects.toThrow(/permission denied/);
+	});
+
+	it('cannot disable or drop the trigger, alter, truncate, update or delete the audit table', async () => {
+		for (const sql of [
+			'ALTER TABLE audit_events DISABLE TRIGGER audit_events_no_update',
+			'ALTER TABLE audit_events DISABLE TRIGGER ALL',
+			'DROP TRIGGER audit_events_no_update ON audit_events',
+			'ALTER TABLE audit_events ADD COLUMN x int',
+			'TRUNCATE audit_events',
+			"UPDATE audit_events SET reason = 'x'",
+			'DELETE FROM audit_events',
+			'UPDATE audit_chain SET legacy_until = 999999'
+		]) {
+			await expect(app().query(sql), sql).rejects.toThrow(/must be owner|permission denied/);
+		}
+	});
+
+	it('can append (INSERT) and read (SELECT) events, which is all the server needs', async () => {
+		const before = await audit.head();
+		await event('least-privilege-append');
+		expect((await audit.head())!.seq).toBeGreaterThan(before!.seq);
+	});
+
+	it('the owner role is not a superuser either', async () => {
+		const { rows } = await owner.query('SELECT rolsuper FROM pg_roles WHERE rolname = current_user');
+		expect(rows[0].rolsuper).toBe(false);
+		await expect(owner.query('SET session_replication_role = replica')).rejects.toThrow(/permission denied/);
 	});
 });

@@ -145,3 +145,20 @@ describe('uploaded file names', () => {
 		expect(disposition).not.toMatch(/%E2%80%AE|\u202E/);
 	});
 });
+
+describe('CSV export of the audit trail (OWASP CSV injection)', () => {
+	it('neutralises reasons, names and values that a spreadsheet would run as formulas', async () => {
+		const code = unique('S').toUpperCase();
+		const res = await call((await routes.suppliers()).POST, jsonRequest('POST', '/api/v1/suppliers', { code, name: '=HYPERLINK("http://evil.example","x")', reason: '@SUM(1+1)' }), {}, buyer);
+		expect(res.status).toBe(201);
+		const exportRoute = await import('../../src/routes/(app)/audit/export.csv/+server');
+		const out = await call(exportRoute.GET as Handler, new Request(`http://127.0.0.1/audit/export.csv?entity=supplier`), {}, admin, '/(app)/audit/export.csv');
+		expect(out.status).toBe(200);
+		const Papa = (await import('papaparse')).default;
+		const rows = Papa.parse<string[]>((await out.text()).trim()).data;
+		const mine = rows.find((r) => r.some((c) => c.includes(code)))!;
+		expect(mine).toBeDefined();
+		expect(mine).toContain("'@SUM(1+1)");
+		expect(rows.flat().some((c) => /^[=+\-@\t\r]/.test(c))).toBe(false);
+	});
+});

@@ -4,7 +4,7 @@ import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import type { TestProject } from 'vitest/node';
-import { ensureDatabase, projectRoot, startCluster } from '../../scripts/lib/postgres';
+import { ensureDatabase, projectRoot, provisionRoles, startCluster } from '../../scripts/lib/postgres';
 
 let app: ChildProcess | null = null;
 
@@ -12,7 +12,8 @@ export default async function setup(project: TestProject) {
 	const cluster = await startCluster();
 	const port = Number(process.env.LOTGATE_E2E_PORT ?? 3107);
 	// One database per port, so two runs side by side never drop each other's data.
-	const url = await ensureDatabase(cluster, `lotgate_e2e_${port}`, { fresh: true });
+	await ensureDatabase(cluster, `lotgate_e2e_${port}`, { fresh: true });
+	const { ownerUrl, appUrl: url } = await provisionRoles(cluster, `lotgate_e2e_${port}`);
 	const env = {
 		...process.env,
 		DATABASE_URL: url,
@@ -30,7 +31,11 @@ export default async function setup(project: TestProject) {
 	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');
 	const { migrate } = await import('../../src/lib/server/db/migrate');
 	const { seedDemo } = await import('../../src/lib/server/demo/seed');
+	// Migrations as the owner role; the seed and the server as the app role.
+	process.env.DATABASE_URL = ownerUrl;
 	await migrate(sequelize(), { quiet: true });
+	await closeDatabase();
+	process.env.DATABASE_URL = url;
 	await seedDemo(() => {});
 	await closeDatabase();
 
@@ -49,6 +54,7 @@ export default async function setup(project: TestProject) {
 	await waitFor(`${baseUrl}/login`);
 	project.provide('baseUrl', baseUrl);
 	project.provide('databaseUrl', url);
+	project.provide('ownerDatabaseUrl', ownerUrl);
 	project.provide('auditKey', env.LOTGATE_AUDIT_KEY);
 	project.provide('auditCheckpointDir', env.LOTGATE_AUDIT_CHECKPOINT_DIR);
 	return async () => {

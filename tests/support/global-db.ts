@@ -3,17 +3,20 @@ import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { TestProject } from 'vitest/node';
-import { ensureDatabase, startCluster } from '../../scripts/lib/postgres';
+import { ensureDatabase, provisionRoles, startCluster } from '../../scripts/lib/postgres';
 
 export default async function setup(project: TestProject) {
 	const cluster = await startCluster();
-	const url = await ensureDatabase(cluster, 'lotgate_test', { fresh: true });
-	process.env.DATABASE_URL = url;
+	await ensureDatabase(cluster, 'lotgate_test', { fresh: true });
+	// As in production: migrations as the owner role, the tests (like the server) as the app role.
+	const { ownerUrl, appUrl: url } = await provisionRoles(cluster, 'lotgate_test');
+	process.env.DATABASE_URL = ownerUrl;
 	const { sequelize, closeDatabase } = await import('../../src/lib/server/db/index');
 	const { migrate } = await import('../../src/lib/server/db/migrate');
 	await migrate(sequelize(), { quiet: true });
 	await closeDatabase();
 	project.provide('databaseUrl', url);
+	project.provide('ownerDatabaseUrl', ownerUrl);
 	// The audit key and checkpoint folder live outside the database, as in production: a fresh folder per run.
 	project.provide('auditCheckpointDir', mkdtempSync(join(tmpdir(), 'lotgate-checkpoints-')));
 }
@@ -24,5 +27,6 @@ declare module 'vitest' {
 		baseUrl: string;
 		auditCheckpointDir: string;
 		auditKey: string;
+		ownerDatabaseUrl: string;
 	}
 }

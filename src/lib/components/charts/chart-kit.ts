@@ -1,5 +1,6 @@
 // Shared pieces of the evidence plots: group colours AND shapes (never colour alone), exports, and metadata grouping.
 import Papa from 'papaparse';
+import { toCsv } from '$lib/csv';
 
 /** Colour-blind-safe palette (Okabe–Ito order), paired with a distinct point shape per group. */
 export const PALETTE = ['#0072B2', '#D55E00', '#009E73', '#CC79A7', '#E69F00', '#56B4E9', '#000000', '#8C6D31', '#7F3C8D', '#3969AC'];
@@ -47,7 +48,7 @@ export function downloadUrl(url: string, fileName: string) {
 
 /** The plotted data, one row per point or per axis value, through papaparse so quoting is right. */
 export function downloadCsv(rows: Record<string, unknown>[], fileName: string) {
-	const blob = new Blob([Papa.unparse(rows)], { type: 'text/csv;charset=utf-8' });
+	const blob = new Blob([toCsv(rows)], { type: 'text/csv;charset=utf-8' });
 	const url = URL.createObjectURL(blob);
 	downloadUrl(url, fileName);
 	setTimeout(() => URL.revokeObjectURL(url), 1000);

@@ -219,6 +219,7 @@ export async function verifyChain(options: { checkpoint?: ChainAnchor | null; li
 	if (checkpoint) {
 		let reason: string | undefined;
 		if (checkpoint.legacyUntil !== legacy) reason = `the unkeyed prefix now ends at #${legacy}, but the checkpoint recorded #${checkpoint.legacyUntil}`;
+		else if (checkpoint.seq === 0) reason = undefined; // checkpoint of an empty trail: nothing to require yet
 		else if (!head) reason = `the audit table is empty, but the checkpoint of ${checkpoint.at} recorded ${checkpoint.seq} as its last event (truncated)`;
 		else if (head.seq < checkpoint.seq) reason = `the last event is #${head.seq}, but the checkpoint of ${checkpoint.at} recorded #${checkpoint.seq} (events at the end were deleted)`;
 		else if (atCheckpoint == null) reason = `event #${checkpoint.seq}, the head at the checkpoint of ${checkpoint.at}, is missing`;

@@ -1,5 +1,5 @@
 import { can } from '$lib/permissions';
-import Papa from 'papaparse';
+import { toCsv } from '$lib/csv';
 import { auditQueryFrom } from '$lib/server/audit-query';
 import { requireUser } from '$lib/server/guard';
 import * as audit from '$lib/server/services/audit';
@@ -27,7 +27,7 @@ export const GET: RequestHandler = async (event) => {
 		}
 		if (page * batch.pageSize >= batch.total) break;
 	}
-	const csv = Papa.unparse(rows, { columns: ['id', 'at', 'actor', 'action', 'entity', 'entityId', 'reason', 'before', 'after', 'hash'] });
+	const csv = toCsv(rows, ['id', 'at', 'actor', 'action', 'entity', 'entityId', 'reason', 'before', 'after', 'hash']);
 	return new Response(csv, {
 		headers: { 'content-type': 'text/csv; charset=utf-8', 'content-disposition': `attachment; filename="lotgate-audit-${new Date().toISOString().slice(0, 10)}.csv"` }
 	});
