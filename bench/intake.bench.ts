@@ -49,7 +49,7 @@ function post(base: string, token: string, files: { name: string; bytes: Uint8Ar
 	return fetch(`${base}/api/v1/spectra`, { method: 'POST', body: form, headers: { authorization: `Bearer ${token}` } });
 }
 
-const { url, sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench');
+const { url, closeDatabase } = await freshBenchDatabase('lotgate_bench');
 const users = await import('../src/lib/server/services/users');
 const instruments = await import('../src/lib/server/services/instruments');
 const bootstrap = { id: null, label: 'bench', roles: ['admin' as const] };

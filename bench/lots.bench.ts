@@ -18,7 +18,7 @@ const HTTP_CONNECTIONS = 20;
 
 
 async function main() {
-	const { url, sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench_lots');
+	const { url, closeDatabase } = await freshBenchDatabase('lotgate_bench_lots');
 	const { approvedMaterial, jcamp } = await import('../tests/support/lot-fixtures');
 	const lots = await import('../src/lib/server/services/lots');
 	const scans = await import('../src/lib/server/services/scans');

@@ -7,7 +7,7 @@ const N = 500;
 const P = 2000;
 
 async function main() {
-	const { sequelize, closeDatabase } = await freshBenchDatabase('lotgate_bench_models');
+	const { closeDatabase } = await freshBenchDatabase('lotgate_bench_models');
 	const materials = await import('../src/lib/server/services/materials');
 	const versions = await import('../src/lib/server/services/model-versions');
 	const users = await import('../src/lib/server/services/users');

@@ -1,4 +1,5 @@
-// `npm test`: installs what the tests need (Debian chromium, postgresql), then runs every Vitest project.
+// `npm test`: installs what the tests need (Debian chromium, postgresql), type-checks (svelte-check) and lints (ESLint),
+// then runs every Vitest project.
 import { execFileSync, spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { ensurePostgresInstalled } from './lib/postgres';
@@ -16,6 +17,15 @@ if (!existsSync('/usr/bin/chromium')) {
 }
 if (!existsSync('/usr/bin/pdftotext')) {
 	execFileSync('apt-get', ['install', '-y', '-qq', 'poppler-utils'], { stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
+}
+// Type errors and lint errors fail the test command (and so CI) before any test runs.
+for (const script of ['check', 'lint']) {
+	console.log(`[test] npm run ${script}`);
+	const result = spawnSync('npm', ['run', '--silent', script], { stdio: 'inherit' });
+	if (result.status !== 0) {
+		console.error(`[test] npm run ${script} failed`);
+		process.exit(result.status ?? 1);
+	}
 }
 const args = process.argv.slice(2);
 const run = spawnSync('npx', ['vitest', 'run', ...args], { stdio: 'inherit', env: { ...process.env, LOTGATE_TEST: '1' } });
