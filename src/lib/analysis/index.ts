@@ -40,3 +40,6 @@ export { driftSeries, DRIFT_DEFAULTS } from './drift';
 export type { DriftLotInput, DriftLotResult, DriftSeries } from './drift';
 export type { Identification, IdentityMatch, FamilyCandidate, MeanCandidate } from './identify';
 export { identify, familyRatio, meanCorrelation } from './identify';
+export { peakPositions, quadraticVertex } from './peaks';
+export type { PeakFound } from './peaks';
+export { linearity, rmsNoise } from './instrument-figures';
