@@ -11,6 +11,7 @@ const ITEMS: NavItem[] = [
 	{ href: '/materials', label: 'Materials' },
 	{ href: '/intake', label: 'Intake' },
 	{ href: '/suppliers', label: 'Suppliers' },
+	{ href: '/instruments', label: 'Instruments' },
 	{ href: '/alerts', label: 'Alerts' },
 	{ href: '/audit', label: 'Audit trail' },
 	{ href: '/admin', label: 'Admin' }

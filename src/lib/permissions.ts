@@ -48,6 +48,8 @@ export const can = {
 	decideInvalidation: ['qa'],
 	/** restart a supplier's drift history after a confirmed process change */
 	restartDriftBaseline: ['chemometrician'],
+	/** record an instrument performance check (the standard's spectrum or linearity readings) */
+	recordInstrumentChecks: ['technician', 'admin'],
 	administer: ['admin']
 } as const satisfies Record<string, readonly Role[]>;
 export type Capability = keyof typeof can;

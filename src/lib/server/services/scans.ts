@@ -11,6 +11,7 @@ import { prepareStored } from './artefact-store';
 import * as alerts from './alerts';
 import * as audit from './audit';
 import * as drift from './drift';
+import * as instrumentGate from './instrument-gate';
 import { conflict, forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
 import * as containerResults from './container-results';
 import * as lots from './lots';
@@ -204,6 +205,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		let verdict: ScanVerdict;
 		let reason: string | null = null;
 		let gate: qualityGates.GateOutcome | null = null;
+		let gateReason: string | null = null;
 		const ingested = await ingestForScan(tx, actor, lotId, file, instrument);
 		if (!ingested.ok) {
 			stored = await storeUnparsed(tx, actor, lotId, file, instrument, material.technique === 'Raman' ? 'cm-1' : 'nm', ingested.reason, ingested.format);
@@ -218,6 +220,9 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 			} else if (s.technique && s.technique !== material.technique) {
 				verdict = 'unusable';
 				reason = `wrong technique: the file is a ${techniqueName(s.technique)} spectrum, but ${material.code} is identified by ${techniqueName(material.technique)}`;
+			} else if ((gateReason = await instrumentGate.screeningBlock(tx, instrument?.id))) {
+				verdict = 'unusable';
+				reason = gateReason;
 			} else if ((gate = await qualityGates.check({ materialId: material.id, technique: material.technique as 'NIR' | 'Raman' | 'mid-IR', instrumentId: instrument?.id ?? null, values: s.values, yUnits: s.yUnit }, tx)).ok === false) {
 				// Quality gates before any model: a lab problem is unusable (rescan), never a material verdict or an alert.
 				verdict = 'unusable';
@@ -358,6 +363,12 @@ export async function rescreen(actor: Actor, lotRef: number | string, reason = '
 		if (!redo.length) throw conflict('No container of this lot waits for screening');
 		const added: { scanId: number; container: number; verdict: ScanVerdict; profile: string | null }[] = [];
 		for (const p of redo) {
+			const block = await instrumentGate.screeningBlock(tx, p.instrument_id);
+			if (block) {
+				const scan = await insertScan(tx, actor, { lotId, container: p.container, spectrumId: Number(p.spectrum_id), modelVersionId: null, verdict: 'unusable', profile: null, ambiguous: false, reason: block, result: null, instrumentId: p.instrument_id, rescreenOf: Number(p.id) });
+				added.push({ scanId: scan.id, container: p.container, verdict: 'unusable', profile: null });
+				continue;
+			}
 			const result = screenStored(model.prep, { id: String(p.spectrum_id), axis: p.axis, values: p.intensities, unit: p.unit });
 			const scan = await insertScan(tx, actor, {
 				lotId,

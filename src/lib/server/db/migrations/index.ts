@@ -11,6 +11,7 @@ import resultIntegrity from './030-result-integrity';
 import qualityGates from './031-quality-gates';
 import auditorRole from './060-auditor-role';
 import supplierDrift from './080-supplier-drift';
+import instrumentChecks from './081-instrument-checks';
 
 export interface Migration {
 	name: string;
@@ -19,4 +20,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, auditorRole, supplierDrift];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, auditorRole, supplierDrift, instrumentChecks];
