@@ -1,4 +1,5 @@
 // The version page's data, shaped for the browser: model summaries, decimated spectra, one page of the training table.
+import { treeOf, walkTree } from '$lib/analysis';
 import * as versions from '$lib/server/services/model-versions';
 import type { ModelArtefact, ModelJson } from '$lib/analysis';
 
@@ -67,6 +68,18 @@ export async function versionView(versionId: number, query: URLSearchParams) {
 	const spectra = data.overview ? Object.entries(data.overview.spectra).map(([id, values]) => ({ id, values })) : [];
 	return {
 		spectra,
+		// the model tree, walked generically (any depth): one row per node with its training count and how it splits
+		tree: a
+			? walkTree(treeOf(a)).map((n) => ({
+					path: n.path,
+					name: n.name,
+					kind: n.kind,
+					n: n.n,
+					decidedBy: n.decidedBy,
+					components: n.model ? n.model.components : null,
+					split: n.split
+				}))
+			: [],
 		version: data.version,
 		versions: data.versions,
 		meta: data.meta,
