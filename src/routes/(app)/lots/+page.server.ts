@@ -6,6 +6,8 @@ import { ServiceError } from '$lib/server/services/errors';
 import * as lots from '$lib/server/services/lots';
 import * as materials from '$lib/server/services/materials';
 import * as suppliers from '$lib/server/services/suppliers';
+import { z } from 'zod';
+import { dateParam, pageParam, parseQuery } from '$lib/server/query';
 import type { PageServerLoad } from './$types';
 
 export const load = (async (event) => {
@@ -22,7 +24,8 @@ export const load = (async (event) => {
 	};
 	let result;
 	try {
-		result = await lots.list({ ...filters, page: Number(q.get('page') ?? 1), pageSize: 25 });
+		const { page } = parseQuery(event.url, z.object({ page: pageParam, from: dateParam, to: dateParam }).passthrough());
+		result = await lots.list({ ...filters, page: page ?? 1, pageSize: 25 });
 	} catch (e) {
 		if (e instanceof ServiceError) error(400, e.message);
 		throw e;

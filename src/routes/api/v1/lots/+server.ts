@@ -2,12 +2,15 @@ import { ANY_SIGNED_IN, can } from '$lib/permissions';
 import { json } from '@sveltejs/kit';
 import { handler, readJson, requireActor } from '$lib/server/api';
 import * as lots from '$lib/server/services/lots';
+import { z } from 'zod';
+import { dateParam, pageParam, pageSizeParam, parseQuery } from '$lib/server/query';
 import type { RequestHandler } from './$types';
 
 /** ?status=&material=&supplier=&from=&to=&q=&sort=receivedAt:desc&page=&pageSize= — every signed-in role. */
 export const GET: RequestHandler = handler(async (event) => {
 	requireActor(event, ANY_SIGNED_IN);
 	const p = event.url.searchParams;
+	const checked = parseQuery(event.url, z.object({ page: pageParam, pageSize: pageSizeParam(200), from: dateParam, to: dateParam }).passthrough());
 	const result = await lots.list({
 		status: p.get('status') ?? undefined,
 		material: p.get('material') ?? undefined,
@@ -16,8 +19,8 @@ export const GET: RequestHandler = handler(async (event) => {
 		to: p.get('to') ?? undefined,
 		q: p.get('q') ?? undefined,
 		sort: p.get('sort') ?? undefined,
-		page: Number(p.get('page') ?? 1),
-		pageSize: Number(p.get('pageSize') ?? 25)
+		page: checked.page ?? 1,
+		pageSize: checked.pageSize ?? 25
 	});
 	return json(result);
 });
