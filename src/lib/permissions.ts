@@ -50,7 +50,9 @@ export const can = {
 	restartDriftBaseline: ['chemometrician'],
 	/** record an instrument performance check (the standard's spectrum or linearity readings) */
 	recordInstrumentChecks: ['technician', 'admin'],
-	administer: ['admin']
+	administer: ['admin'],
+	/** accept as a new scan a file whose exact bytes are already stored elsewhere, for a documented case, with a reason */
+	overrideDuplicateEvidence: ['admin']
 } as const satisfies Record<string, readonly Role[]>;
 export type Capability = keyof typeof can;
 

@@ -7,6 +7,7 @@ import type { Browser, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { demoScenario } from '../../src/lib/demo';
 import { baseUrl, launchBrowser, newContext, sessionCookie, signIn } from '../support/browser';
+import { forLot } from '../support/relabel';
 
 let browser: Browser;
 let techCookie: string;
@@ -27,16 +28,18 @@ afterAll(async () => {
 /** Receives a demo delivery as a new lot through the API, and uploads its containers as the technician. */
 async function receive(lotKey: string) {
 	const spec = scenario.lots.find((l) => l.lotKey === lotKey)!;
+	const supplierLot = `${spec.supplierLot}-${randomBytes(3).toString('hex')}`;
 	const res = await fetch(`${baseUrl()}/api/v1/lots`, {
 		method: 'POST',
 		headers: { cookie: techCookie, 'content-type': 'application/json' },
-		body: JSON.stringify({ material: spec.material, supplier: spec.supplier, supplierLot: `${spec.supplierLot}-${randomBytes(3).toString('hex')}`, containers: spec.files.length, receivedAt: '2025-03-04' })
+		body: JSON.stringify({ material: spec.material, supplier: spec.supplier, supplierLot, containers: spec.files.length, receivedAt: '2025-03-04' })
 	});
 	expect(res.status, await res.clone().text()).toBe(201);
 	const lot = (await res.json()) as { id: number; internalLot: string };
 	for (const f of spec.files) {
 		const form = new FormData();
-		form.set('file', new Blob([Buffer.from(f.bytes)]), f.name);
+		// Written for this lot: identical bytes are refused site-wide, and the header names this lot.
+		form.set('file', new Blob([Buffer.from(forLot(f.bytes, { supplierLot, container: f.container }))]), f.name);
 		form.set('container', String(f.container));
 		const up = await fetch(`${baseUrl()}/api/v1/lots/${lot.id}/scans`, { method: 'POST', headers: { cookie: techCookie }, body: form });
 		expect(up.status, await up.clone().text()).toBe(201);

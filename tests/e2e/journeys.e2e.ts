@@ -166,3 +166,44 @@ describe('onboarding through the forms', () => {
 		await page.context().close();
 	});
 });
+
+describe('evidence that cannot be reused', () => {
+	it('refuses another lot’s container file in the uploader, naming where it is stored; a header naming another lot needs a recorded note', async () => {
+		const source = await receive('lac-good');
+		const stored = (await db.query('SELECT sp.raw, sc.container FROM scans sc JOIN spectra sp ON sp.id = sc.spectrum_id WHERE sc.lot_id = $1 ORDER BY sc.container LIMIT 1', [source.id])).rows[0];
+		const supplierLot = `DUP-${tag()}`;
+		const res = await fetch(`${baseUrl()}/api/v1/lots`, {
+			method: 'POST',
+			headers: { cookie: techCookie, 'content-type': 'application/json' },
+			body: JSON.stringify({ material: 'LAC-200', supplier: 'NORDVIK', supplierLot, containers: 2, receivedAt: '2025-03-04' })
+		});
+		const lot = (await res.json()) as { id: number; internalLot: string };
+		const page = await as('technician@demo.test');
+		await page.goto(`/lots/${lot.internalLot}`);
+		const batch = page.getByTestId('scan-batch');
+		const other = forLot(scenario.lots.find((l) => l.lotKey === 'lac-good')!.files[1].bytes, { supplierLot: 'PT-25-009', container: 2 });
+		await batch.getByTestId('upload-input').setInputFiles([
+			{ name: 'copy-C01.jdx', mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(stored.raw) },
+			{ name: 'other-C02.jdx', mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(other) }
+		]);
+		for (const n of ['copy-C01.jdx', 'other-C02.jdx']) await batch.locator(`[data-testid=upload-row][data-file="${n}"][data-status="ready"]`).waitFor();
+		await batch.getByTestId('upload-start').click();
+		const dup = batch.locator('[data-testid=upload-row][data-file="copy-C01.jdx"][data-status="refused"]');
+		await dup.waitFor();
+		await expect(dup.getByTestId('upload-message').textContent()).resolves.toContain(`already stored in lot ${source.internalLot}, container C0${stored.container}`);
+		await expect(dup.getByTestId('upload-confirm').count()).resolves.toBe(0);
+		const mismatch = batch.locator('[data-testid=upload-row][data-file="other-C02.jdx"][data-status="refused"]');
+		await mismatch.waitFor();
+		await expect(mismatch.getByTestId('upload-message').textContent()).resolves.toContain('the file names lot PT-25-009');
+		await shoot(page, 'journeys-cross-lot-duplicate');
+		const note = 'Template on the handheld still had the previous lot; container 2 of this lot was scanned';
+		await mismatch.getByLabel(/Why the header differs/).fill(note);
+		await mismatch.getByRole('button', { name: 'Upload with this note' }).click();
+		await batch.locator('[data-testid=upload-row][data-file="other-C02.jdx"][data-status="stored"]').waitFor();
+		const audit = await db.query("SELECT after FROM audit_events WHERE action = 'lot.scan-added' AND entity_id = $1 ORDER BY id DESC LIMIT 1", [String(lot.id)]);
+		expect(audit.rows[0].after.headerConfirmation.note).toBe(note);
+		expect((await db.query('SELECT count(*)::int AS n FROM scans WHERE lot_id = $1', [lot.id])).rows[0].n).toBe(1);
+		expect(errorsOf(page)).toEqual([]);
+		await page.context().close();
+	}, 300_000);
+});

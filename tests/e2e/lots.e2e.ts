@@ -9,6 +9,7 @@ import { demoScenario } from '../../src/lib/demo';
 import { newToken } from '../../src/lib/server/tokens';
 import { SCREENING_CAUTION } from '../../src/lib/caution';
 import { baseUrl, launchBrowser, newContext, sessionCookie, signIn } from '../support/browser';
+import { forLot } from '../support/relabel';
 
 // The demo seed received every demo lot and uploaded its scans as the technician; these tests read them back
 // through the browser and the API, and add lots and scans of their own.
@@ -121,7 +122,8 @@ describe('receiving and scanning', () => {
 		await page.goto('/lots/new');
 		await page.locator('select[name=material]').selectOption('LAC-200');
 		await page.locator('select[name=supplier]').selectOption('NORDVIK');
-		await page.getByLabel("Supplier's lot number").fill(`E2E-${Date.now()}`);
+		const supplierLot = `E2E-${Date.now()}`;
+		await page.getByLabel("Supplier's lot number").fill(supplierLot);
 		await page.getByLabel('Containers received (N)').fill('40');
 		await page.locator('select[name=plan]').selectOption('n');
 		await expect(page.getByTestId('plan-preview').textContent()).resolves.toContain('8 of 40');
@@ -131,7 +133,7 @@ describe('receiving and scanning', () => {
 		await expect(page.getByTestId('plan').textContent()).resolves.toContain('n = ⌈1 + √40⌉');
 		const good = spec('lac-good').files[0];
 		const container = await page.locator('select[name=container] option').first().getAttribute('value');
-		await page.locator('input[type=file][name=file]').setInputFiles({ name: 'e2e-scan.jdx', mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(good.bytes) });
+		await page.locator('input[type=file][name=file]').setInputFiles({ name: 'e2e-scan.jdx', mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(forLot(good.bytes, { supplierLot, container: Number(container) })) });
 		await page.getByRole('button', { name: 'Upload and screen' }).click();
 		await expect(page.getByTestId('scan-added').textContent()).resolves.toContain('genuine');
 		await expect(page.locator(`tr[data-container="${container}"]`).getAttribute('data-verdict')).resolves.toBe('genuine');
@@ -139,10 +141,11 @@ describe('receiving and scanning', () => {
 	});
 
 	it('uploads two container scans at once with the batch tool; both verdicts appear in the container table', async () => {
+		const batchLot = `BATCH-${Date.now()}`;
 		const created = await fetch(`${baseUrl()}/api/v1/lots`, {
 			method: 'POST',
 			headers: { cookie: techCookie, 'content-type': 'application/json' },
-			body: JSON.stringify({ material: 'LAC-200', supplier: 'NORDVIK', supplierLot: `BATCH-${Date.now()}`, containers: 2, receivedAt: new Date().toISOString().slice(0, 10) })
+			body: JSON.stringify({ material: 'LAC-200', supplier: 'NORDVIK', supplierLot: batchLot, containers: 2, receivedAt: new Date().toISOString().slice(0, 10) })
 		});
 		expect(created.status).toBe(201);
 		const lot = await created.json();
@@ -154,7 +157,7 @@ describe('receiving and scanning', () => {
 		await signIn(page, 'technician@demo.test');
 		await page.goto(`/lots/${lot.internalLot}`);
 		const batch = page.getByTestId('scan-batch');
-		await batch.getByTestId('upload-input').setInputFiles(files.map((f) => ({ name: f.name, mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(f.bytes) })));
+		await batch.getByTestId('upload-input').setInputFiles(files.map((f) => ({ name: f.name, mimeType: 'chemical/x-jcamp-dx', buffer: Buffer.from(forLot(f.bytes, { supplierLot: batchLot, container: f.container })) })));
 		for (const f of files) await batch.locator(`[data-testid=upload-row][data-file="${f.name}"][data-status="ready"]`).waitFor();
 		await expect(batch.getByLabel('Container for lac-good-C02.jdx').inputValue()).resolves.toBe('2');
 		await batch.getByTestId('upload-start').click();
@@ -184,10 +187,11 @@ describe('receiving and scanning', () => {
 	});
 
 	it('an instrument posts scans with its token; a container outside the plan is a 400 naming the plan', async () => {
+		const tokLot = `TOK-${Date.now()}`;
 		const created = await fetch(`${baseUrl()}/api/v1/lots`, {
 			method: 'POST',
 			headers: { cookie: techCookie, 'content-type': 'application/json' },
-			body: JSON.stringify({ material: 'LAC-200', supplier: 'NORDVIK', supplierLot: `TOK-${Date.now()}`, containers: 2, receivedAt: new Date().toISOString().slice(0, 10) })
+			body: JSON.stringify({ material: 'LAC-200', supplier: 'NORDVIK', supplierLot: tokLot, containers: 2, receivedAt: new Date().toISOString().slice(0, 10) })
 		});
 		const lot = await created.json();
 		const { token, prefix, hash } = newToken();
@@ -200,7 +204,7 @@ describe('receiving and scanning', () => {
 			body.set('file', new Blob([Buffer.from(file.bytes)]), file.name);
 			return fetch(`${baseUrl()}/api/v1/lots/${lot.id}/scans`, { method: 'POST', headers: { authorization: auth }, body });
 		};
-		const files = spec('lac-good').files;
+		const files = spec('lac-good').files.map((f, i) => ({ ...f, bytes: forLot(f.bytes, { supplierLot: tokLot, container: i === 1 ? 1 : f.container }) }));
 		const ok = await post('1', files[1]);
 		expect(ok.status).toBe(201);
 		expect(await ok.json()).toMatchObject({ verdict: 'genuine', container: 1 });

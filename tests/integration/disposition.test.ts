@@ -9,6 +9,7 @@ import { join } from 'node:path';
 import { QueryTypes } from 'sequelize';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { makeUser, unique } from '../support/factories';
+import { forLot } from '../support/relabel';
 
 type Svc = {
 	db: typeof import('../../src/lib/server/db/index');
@@ -64,8 +65,10 @@ afterAll(async () => {
 /** Receives a demo delivery as a new lot (unique supplier lot) and uploads every container through the scan service. */
 async function receive(lotKey: string, options: { upload?: number } = {}) {
 	const spec = demoLots.find((l) => l.lotKey === lotKey)!;
-	const lot = await s.lots.create(tech.actor, { material: spec.material, supplier: spec.supplier, supplierLot: unique(spec.supplierLot), containers: spec.files.length, receivedAt: '2025-03-04' });
-	for (const f of spec.files.slice(0, options.upload ?? spec.files.length)) await s.scans.add(tech.actor, lot.id, { bytes: f.bytes, fileName: f.name, container: f.container });
+	const supplierLot = unique(spec.supplierLot);
+	const lot = await s.lots.create(tech.actor, { material: spec.material, supplier: spec.supplier, supplierLot, containers: spec.files.length, receivedAt: '2025-03-04' });
+	// Each file written for this lot: identical bytes are refused site-wide, and the header names this lot.
+	for (const f of spec.files.slice(0, options.upload ?? spec.files.length)) await s.scans.add(tech.actor, lot.id, { bytes: forLot(f.bytes, { supplierLot, container: f.container }), fileName: f.name, container: f.container });
 	return s.lots.get(lot.id);
 }
 

@@ -15,6 +15,7 @@ let fx: LotFixture;
 let qa1: Awaited<ReturnType<typeof makeUser>>;
 let qa2: Awaited<ReturnType<typeof makeUser>>;
 let tech: Awaited<ReturnType<typeof makeUser>>;
+let admin: Awaited<ReturnType<typeof makeUser>>;
 let seed = 880_000;
 
 beforeAll(async () => {
@@ -28,6 +29,7 @@ beforeAll(async () => {
 	qa1 = await makeUser(['qa']);
 	qa2 = await makeUser(['qa']);
 	tech = await makeUser(['technician']);
+	admin = await makeUser(['admin']);
 }, 120_000);
 
 afterAll(async () => {});
@@ -89,5 +91,74 @@ describe('second QA signature', () => {
 			['disposition', [{ key: 'disposition:1', href: '/lots/A', label: 'b' }]]
 		]);
 		expect(items.map((i) => i.key)).toEqual(['lot:/lots/A', 'lot:/lots/A#2', 'disposition:disposition:1']);
+	});
+});
+
+describe('evidence that cannot be reused', () => {
+	async function newLot(containers = 2) {
+		const supplierLot = unique('SL');
+		const lot = await s.lots.create(tech.actor, { material: fx.materialCode, supplier: fx.supplierCode, supplierLot, containers, receivedAt: '2025-05-06' });
+		return { ...lot, supplierLot };
+	}
+	const q = async <T extends object>(sql: string, replacements: Record<string, unknown>) => {
+		const { sequelize } = await import('../../src/lib/server/db');
+		const { QueryTypes } = await import('sequelize');
+		return sequelize().query<T>(sql, { replacements, type: QueryTypes.SELECT });
+	};
+
+	it('refuses the bytes of another lot’s container as a new scan, naming where they are stored, and stores nothing', async () => {
+		const a = await newLot();
+		const b = await newLot();
+		const bytes = jcamp('genuine', fx.axis, seed++, 'plain scan');
+		const first = await s.scans.add(tech.actor, a.id, { bytes, fileName: 'a-c1.jdx', container: 1 });
+		const before = (await q<{ n: number }>('SELECT count(*)::int AS n FROM spectra WHERE context = :c AND context_id = :id', { c: 'lot', id: b.id }))[0]!.n;
+		const err = await s.scans.add(tech.actor, b.id, { bytes, fileName: 'b-c1.jdx', container: 1 }).catch((e) => e);
+		expect(err).toMatchObject({ status: 409, code: 'duplicate-elsewhere', field: 'file' });
+		expect(err.message).toContain(`lot ${a.internalLot}, container C01 (scan #${first.scanId}`);
+		expect(err.details.confirm).toBeUndefined();
+		expect((await q<{ n: number }>('SELECT count(*)::int AS n FROM spectra WHERE context = :c AND context_id = :id', { c: 'lot', id: b.id }))[0]!.n).toBe(before);
+		expect((await s.lots.get(b.id)).scans).toHaveLength(0);
+		// A technician's "reason" does not open the door: only an admin may override.
+		await expect(s.scans.add(tech.actor, b.id, { bytes, fileName: 'b-c1.jdx', container: 1, duplicateOverrideReason: 'I am sure it is fine' })).rejects.toMatchObject({ code: 'duplicate-elsewhere' });
+	});
+
+	it('lets an admin store such bytes for a documented case, with the reason in the audit trail', async () => {
+		const a = await newLot();
+		const b = await newLot();
+		const bytes = jcamp('genuine', fx.axis, seed++, 'plain scan');
+		await s.scans.add(tech.actor, a.id, { bytes, fileName: 'a-c2.jdx', container: 2 });
+		const short = await s.scans.add(admin.actor, b.id, { bytes, fileName: 'b-c2.jdx', container: 2, duplicateOverrideReason: 'ok' }).catch((e) => e);
+		expect(short).toMatchObject({ status: 409, code: 'duplicate-elsewhere' });
+		expect(short.details.confirm).toMatchObject({ field: 'duplicateOverrideReason', minLength: 10 });
+		const reason = 'Deviation DV-2025-014: one composite sample was split between the two lots by the supplier';
+		const added = await s.scans.add(admin.actor, b.id, { bytes, fileName: 'b-c2.jdx', container: 2, duplicateOverrideReason: reason });
+		const [event] = await q<{ after: { scanId: number; duplicateOverride: { reason: string; storedAt: string[] } } }>(
+			"SELECT after FROM audit_events WHERE action = 'lot.scan-added' AND entity_id = :lot ORDER BY id DESC LIMIT 1",
+			{ lot: String(b.id) }
+		);
+		expect(event!.after.scanId).toBe(added.scanId);
+		expect(event!.after.duplicateOverride.reason).toBe(reason);
+		expect(event!.after.duplicateOverride.storedAt[0]).toContain(`lot ${a.internalLot}, container C02`);
+	});
+
+	it('asks for a confirmation when the header names another lot or container, and records it', async () => {
+		const lot = await newLot();
+		const other = jcamp('genuine', fx.axis, seed++, `${fx.materialCode}, lot PT-25-009, container 02`);
+		const err = await s.scans.add(tech.actor, lot.id, { bytes: other, fileName: 'c1.jdx', container: 1 }).catch((e) => e);
+		expect(err).toMatchObject({ status: 409, code: 'header-mismatch' });
+		expect(err.details.mismatches).toEqual([`the file names lot PT-25-009, not ${lot.internalLot} / ${lot.supplierLot}`, 'the file names container C02, not C01']);
+		expect((await s.lots.get(lot.id)).scans).toHaveLength(0);
+		const note = 'Instrument template not updated: the operator scanned container 1 of this lot (logbook p. 12)';
+		const added = await s.scans.add(tech.actor, lot.id, { bytes: other, fileName: 'c1.jdx', container: 1, headerConfirmation: note });
+		const [event] = await q<{ after: { scanId: number; headerConfirmation: { note: string; mismatches: string[] } } }>(
+			"SELECT after FROM audit_events WHERE action = 'lot.scan-added' AND entity_id = :lot ORDER BY id DESC LIMIT 1",
+			{ lot: String(lot.id) }
+		);
+		expect(event!.after.scanId).toBe(added.scanId);
+		expect(event!.after.headerConfirmation.note).toBe(note);
+		expect(event!.after.headerConfirmation.mismatches).toHaveLength(2);
+		// A header naming this very lot and container needs nothing.
+		const own = jcamp('genuine', fx.axis, seed++, `${fx.materialCode}, lot ${lot.supplierLot}, container 2`);
+		await expect(s.scans.add(tech.actor, lot.id, { bytes: own, fileName: 'c2.jdx', container: 2 })).resolves.toMatchObject({ container: 2 });
 	});
 });

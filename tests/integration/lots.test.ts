@@ -11,6 +11,7 @@ import * as lots from '../../src/lib/server/services/lots';
 import * as scans from '../../src/lib/server/services/scans';
 import { makeUser, rootActor, unique } from '../support/factories';
 import { approvedMaterial, corrupt, demoMaterial, jcamp, type LotFixture } from '../support/lot-fixtures';
+import { forLot } from '../support/relabel';
 import type { Actor } from '../../src/lib/server/services/actor';
 
 const today = () => new Date().toISOString().slice(0, 10);
@@ -212,10 +213,11 @@ describe('demo fixtures (demoScenario lots against a model built from the demo l
 	});
 	async function screenDemoLot(lotKey: string) {
 		const spec = demo.lots.find((l) => l.lotKey === lotKey)!;
-		const lot = await lots.create(tech, { material: demo.materialCode, supplier: demo.supplierCode, supplierLot: unique(spec.supplierLot), containers: spec.files.length, receivedAt: today() });
+		const supplierLot = unique(spec.supplierLot);
+		const lot = await lots.create(tech, { material: demo.materialCode, supplier: demo.supplierCode, supplierLot, containers: spec.files.length, receivedAt: today() });
 		const verdicts: Record<number, { verdict: string; profile: string | null; reason: string | null }> = {};
 		for (const f of spec.files) {
-			const r = await scans.add(tech, lot.id, { bytes: f.bytes, fileName: f.name, container: f.container });
+			const r = await scans.add(tech, lot.id, { bytes: forLot(f.bytes, { supplierLot, container: f.container }), fileName: f.name, container: f.container });
 			verdicts[f.container] = { verdict: r.verdict, profile: r.profile, reason: r.reason };
 		}
 		return { lot: await lots.get(lot.id), verdicts, spec };
@@ -250,8 +252,10 @@ describe('demo fixtures (demoScenario lots against a model built from the demo l
 	});
 	it('the stored statistics equal `lotgate screen` on a demo file', async () => {
 		const spec = demo.lots.find((l) => l.lotKey === 'lac-diluted')!;
-		const f = spec.files.find((x) => x.container === 4)!;
-		const lot = await lots.create(tech, { material: demo.materialCode, supplier: demo.supplierCode, supplierLot: unique('cli'), containers: 4, receivedAt: today() });
+		const supplierLot = unique('cli');
+		const demoFile = spec.files.find((x) => x.container === 4)!;
+		const f = { ...demoFile, bytes: forLot(demoFile.bytes, { supplierLot, container: 4 }) };
+		const lot = await lots.create(tech, { material: demo.materialCode, supplier: demo.supplierCode, supplierLot, containers: 4, receivedAt: today() });
 		const r = await scans.add(tech, lot.id, { bytes: f.bytes, fileName: f.name, container: 4 });
 		const dir = mkdtempSync(join(tmpdir(), 'lotgate-cli-'));
 		writeFileSync(join(dir, 'model.json'), demo.artefactText);

@@ -19,7 +19,7 @@ export function apiError(status: number, code: string, message: string, field?: 
 
 export function errorResponse(error: unknown) {
 	if (error instanceof ServiceError) {
-		const response = apiError(error.status, error.code, error.message, error.field);
+		const response = apiError(error.status, error.code, error.message, error.field, error.details ?? {});
 		const retryAfter = (error as { retryAfter?: number }).retryAfter;
 		if (error.status === 429 && retryAfter) response.headers.set('retry-after', String(Math.ceil(retryAfter)));
 		return response;

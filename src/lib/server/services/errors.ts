@@ -5,7 +5,9 @@ export class ServiceError extends Error {
 		readonly status: 400 | 401 | 403 | 404 | 409 | 413 | 415 | 422 | 423 | 429 | 503,
 		readonly code: string,
 		message: string,
-		readonly field?: string
+		readonly field?: string,
+		/** Extra fields for the API error body, e.g. what a confirmation needs (kept out of the message). */
+		readonly details?: Record<string, unknown>
 	) {
 		super(message);
 		this.name = 'ServiceError';

@@ -18,6 +18,7 @@ import * as lots from './lots';
 import * as qualityGates from './quality-gates';
 import * as identification from './identification';
 import { isClosed, type Identity, type LotStatus, type ScanVerdict } from './lots';
+import * as scanOrigin from './scan-origin';
 import * as intake from './spectra';
 import { displayFileName } from '../../validation/text';
 
@@ -29,6 +30,10 @@ export interface ScanFile {
 	container: number | string;
 	/** For a session upload: which instrument measured it (an instrument token sets it itself). */
 	instrumentId?: number | null;
+	/** An admin's documented case for bytes already stored elsewhere on the site (see scan-origin.ts). */
+	duplicateOverrideReason?: string | null;
+	/** The uploader's note confirming a file whose header names another lot or container. */
+	headerConfirmation?: string | null;
 }
 
 const containerSchema = z.coerce
@@ -199,6 +204,17 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		if (isClosed(lot)) throw conflict(`Lot ${lot.internal_lot} is ${lot.status}: a dispositioned lot takes no more scans`);
 		if (!lot.sampled.includes(container)) throw invalid(`Container ${container} is not in ${planText(lot, lot.sampled)}`, 'container');
 		const instrument = await instrumentOf(instrumentId, tx);
+		// Evidence is one measurement of one container: bytes stored elsewhere, or a header naming another lot, stop here.
+		const origin = await scanOrigin.check(tx, actor, {
+			lotId,
+			internalLot: lot.internal_lot,
+			supplierLot: lot.supplier_lot,
+			container,
+			bytes: file.bytes,
+			fileName: file.fileName,
+			duplicateOverrideReason: file.duplicateOverrideReason,
+			headerConfirmation: file.headerConfirmation
+		});
 
 		let stored: { id: number; sha256: string; title: string | null };
 		let result: ScreenResult | null = null;
@@ -267,7 +283,9 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 				reason,
 				modelVersion: result ? model!.label : null,
 				artefactSha256: result ? model!.sha256 : null,
-				instrument: instrument?.name ?? null
+				instrument: instrument?.name ?? null,
+				...(origin.duplicateOverride ? { duplicateOverride: origin.duplicateOverride } : {}),
+				...(origin.headerConfirmation ? { headerConfirmation: origin.headerConfirmation } : {})
 			}
 		});
 		// A non-genuine verdict opens (or raises) the supplier alert in this same transaction.

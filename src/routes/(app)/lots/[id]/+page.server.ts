@@ -48,7 +48,9 @@ export const actions = {
 				bytes: new Uint8Array(await file.arrayBuffer()),
 				fileName: file.name,
 				container,
-				instrumentId: instrument ? Number(instrument) : null
+				instrumentId: instrument ? Number(instrument) : null,
+				duplicateOverrideReason: String(form.get('duplicateOverrideReason') ?? '') || null,
+				headerConfirmation: String(form.get('headerConfirmation') ?? '') || null
 			});
 			return { scanAdded: { container: added.container, verdict: added.verdict, profile: added.profile, reason: added.reason, fileName: added.fileName } };
 		} catch (error) {

@@ -16,7 +16,10 @@ export const GET: RequestHandler = handler(async (event) => {
 });
 
 /**
- * multipart/form-data: `file` (JCAMP-DX or CSV) and `container` (1..N, in the plan); optional `instrumentId` for a session.
+ * multipart/form-data: `file` (JCAMP-DX or CSV) and `container` (1..N, in the plan); optional `instrumentId` for a session,
+ * `headerConfirmation` (why the file's header names another lot or container) and, for an admin only,
+ * `duplicateOverrideReason` (a documented case for bytes already stored elsewhere). 409 `header-mismatch` /
+ * `duplicate-elsewhere` answers carry `confirm: { field, label, minLength }` when a confirmation can be given.
  * `Authorization: Bearer <instrument token>` or a technician/admin session. 201 with the verdict and the lot's status.
  */
 export const POST: RequestHandler = handler(async (event) => {
@@ -41,7 +44,9 @@ export const POST: RequestHandler = handler(async (event) => {
 		bytes: new Uint8Array(await file.arrayBuffer()),
 		fileName: file.name || 'upload',
 		container: String(container),
-		instrumentId: instrument ? Number(instrument) : null
+		instrumentId: instrument ? Number(instrument) : null,
+		duplicateOverrideReason: String(form.get('duplicateOverrideReason') ?? '') || null,
+		headerConfirmation: String(form.get('headerConfirmation') ?? '') || null
 	});
 	return json(added, { status: 201 });
 });
