@@ -43,3 +43,6 @@ export { identify, familyRatio, meanCorrelation } from './identify';
 export { peakPositions, quadraticVertex } from './peaks';
 export type { PeakFound } from './peaks';
 export { linearity, rmsNoise } from './instrument-figures';
+export type { AcceptanceCriteria, AcceptanceInput, AcceptanceResult, CriterionResult, ValidationItem } from './acceptance';
+export { DEFAULT_CRITERIA, evaluateAcceptance, checkCriteria, cvFrrBound } from './acceptance';
+export type { VerdictPerformance } from './metrics';

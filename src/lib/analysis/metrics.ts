@@ -45,6 +45,21 @@ export interface ClassPerformance {
 	mcc: number;
 }
 
+/**
+ * Verdict-level performance of one class: what the user sees. An object is "called" class q when its verdict names
+ * q (`genuine` for the genuine class, `suspect:<q>` for a suspect profile). A genuine object whose verdict is
+ * `suspect` is therefore not a true positive for genuine, although the genuine class model may have accepted it.
+ */
+export interface VerdictPerformance {
+	className: string;
+	tp: number;
+	fn: number;
+	tn: number;
+	fp: number;
+	sensitivity: Interval;
+	specificity: Interval;
+}
+
 export interface ValidationReport {
 	classes: string[];
 	/** Column labels: the K classes, then "several", then "none". */
@@ -53,7 +68,10 @@ export interface ValidationReport {
 	confusion: number[][];
 	/** Same columns for test objects of no class (aliens). */
 	alienRow: number[];
+	/** Class-model level: a class model accepts (with the family model), whatever the final verdict. */
 	perClass: ClassPerformance[];
+	/** Verdict level: the class the verdict names (see VerdictPerformance). */
+	verdictLevel: VerdictPerformance[];
 	/** Verdict counts, for the report. */
 	verdicts: Record<string, number>;
 	results: (ScreenResult & { expected: string | null })[];
@@ -117,5 +135,19 @@ export function evaluate(artefact: ModelArtefact, tests: (SpectrumInput & { expe
 			mcc: mcc(tp, tn, fp, fn)
 		};
 	});
-	return { classes: [...K], columns: [...K, 'several', 'none'], confusion, alienRow, perClass, verdicts, results };
+	const called = (r: ScreenResult): string | null => (r.verdict === 'genuine' ? artefact.genuine : r.verdict === 'suspect' ? r.profile : null);
+	const verdictLevel = K.map((cls): VerdictPerformance => {
+		let tp = 0;
+		let fn = 0;
+		let tn = 0;
+		let fp = 0;
+		results.forEach((r) => {
+			const exp = r.expected !== null && K.includes(r.expected) ? r.expected : null;
+			const hit = called(r) === cls;
+			if (exp === cls) hit ? tp++ : fn++;
+			else hit ? fp++ : tn++;
+		});
+		return { className: cls, tp, fn, tn, fp, sensitivity: clopperPearson(tp, tp + fn), specificity: clopperPearson(tn, tn + fp) };
+	});
+	return { classes: [...K], columns: [...K, 'several', 'none'], confusion, alienRow, perClass, verdictLevel, verdicts, results };
 }
