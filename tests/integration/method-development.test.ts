@@ -14,13 +14,15 @@ import { axis, csvMatrix, insertLibrary, rng, spectrum, standardRows } from '../
 import * as library from '../../src/lib/server/services/library';
 import { sequelize } from '../../src/lib/server/db';
 
+// Fixed seeds: the same spectra on every run, so whether a version meets the acceptance criteria is reproducible.
+let nextSeed = 4242;
 async function materialWithLibrary(perClass = 14) {
 	const code = unique('MD').toUpperCase();
 	const m = await materials.create(rootActor, { code, name: `Method test ${code}`, technique: 'NIR' });
 	await materials.addClass(rootActor, m.id, { name: 'genuine', kind: 'genuine', description: 'real' });
 	await materials.addClass(rootActor, m.id, { name: 'diluted', kind: 'suspect', description: 'diluted' });
 	await materials.addClass(rootActor, m.id, { name: 'substituted', kind: 'suspect', description: 'other grade' });
-	const ids = await insertLibrary(m.id, standardRows(perClass), Math.floor(Math.random() * 1e6));
+	const ids = await insertLibrary(m.id, standardRows(perClass), nextSeed++);
 	return { material: m, ids };
 }
 

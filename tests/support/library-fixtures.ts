@@ -75,15 +75,20 @@ export async function insertLibrary(materialId: number, rows: FixtureRow[], seed
 	return ids;
 }
 
-/** n training spectra per class in lots of 3, plus test and challenge spectra. */
-export function standardRows(perClass = 14, tests = 4): FixtureRow[] {
+/**
+ * n training spectra per class in lots of 3, plus test and challenge spectra. Without `tests`, the held-out set meets
+ * the default acceptance criteria's counts (issue 12): 12 genuine test spectra from 4 lots not in training, 5 test
+ * spectra per suspect profile, 5 challenge spectra of another material. With `tests`, that many of each.
+ */
+export function standardRows(perClass = 14, tests?: number): FixtureRow[] {
 	const rows: FixtureRow[] = [];
 	const classes: [string, keyof typeof BANDS][] = [['genuine', 'genuine'], ['diluted', 'diluted'], ['substituted', 'substituted']];
 	for (const [label, kind] of classes) {
 		for (let i = 0; i < perClass; i++) rows.push({ label, kind, role: 'training', lot: `${label}-L${Math.floor(i / 3)}` });
-		for (let i = 0; i < tests; i++) rows.push({ label, kind, role: 'test', lot: `${label}-T${i}` });
+		const n = tests ?? (label === 'genuine' ? 12 : 5);
+		for (let i = 0; i < n; i++) rows.push({ label, kind, role: 'test', lot: tests === undefined && label === 'genuine' ? `${label}-T${i % 4}` : `${label}-T${i}` });
 	}
-	for (let i = 0; i < tests; i++) rows.push({ label: 'talc-cut', kind: 'alien', role: 'challenge', lot: `alien-${i}` });
+	for (let i = 0; i < (tests ?? 5); i++) rows.push({ label: 'talc-cut', kind: 'alien', role: 'challenge', lot: `alien-${i}` });
 	return rows;
 }
 

@@ -293,6 +293,56 @@ const MATERIALS: MaterialSpec[] = [
 	}
 ];
 
+/**
+ * Held-out validation spectra (issue 12 acceptance criteria): for every material, 3 later genuine deliveries of 4
+ * spectra each, none of them in training (role test, lots `…-26Hn`); for the materials whose library had no
+ * challenge of another material, 6 challenge spectra of one.
+ */
+const HELD_OUT_CHALLENGES: Record<string, { code: string; kind: Kind | 'citric-filler'; description: string }[]> = {
+	'MCC-100': [{ code: 'not-mcc', kind: 'lactose', description: 'Lactose monohydrate (wrong material, challenge only)' }],
+	'CIT-ANH': [{ code: 'filler-cut', kind: 'citric-filler', description: 'About 30 % of an inorganic filler blended in (unseen adulterant, challenge only)' }]
+};
+
+function heldOut(m: MaterialSpec, axis: Float64Array, unit: AxisUnit, quantum: number, hold: Rng): DemoLibraryRow[] {
+	const rows: DemoLibraryRow[] = [];
+	const genuine = m.classes.find((c) => c.genuine)!;
+	const suppliers = [...new Set(genuine.lots.map((l) => l.supplier))];
+	for (let lot = 0; lot < 3; lot++) {
+		const supplier = suppliers[lot % suppliers.length];
+		const supplierLot = `${PREFIX[supplier]}-26H${lot + 1}`;
+		const ls = lotState(hold);
+		for (let i = 0; i < 4; i++) {
+			const instrument = m.instruments[(lot * 4 + i) % m.instruments.length];
+			const values = spectrumOf(genuine.kind, axis, sampleState(ls, hold), instrument, hold, quantum);
+			rows.push({ id: `${m.code}-genuine-h${String(lot * 4 + i + 1).padStart(2, '0')}`, material: m.code, class: genuine.code, supplier, supplierLot, instrument, role: 'test', axis, unit, values });
+		}
+	}
+	for (const c of HELD_OUT_CHALLENGES[m.code] ?? []) {
+		const supplier = 'ZEPHYRA';
+		const supplierLot = `${PREFIX[supplier]}-26C1`;
+		const ls = lotState(hold);
+		for (let i = 0; i < 6; i++) {
+			const instrument = m.instruments[i % m.instruments.length];
+			const st = sampleState(ls, hold);
+			const values =
+				c.kind === 'citric-filler'
+					? fillerCut(axis, st, instrument, hold, quantum)
+					: spectrumOf(c.kind, axis, st, instrument, hold, quantum);
+			rows.push({ id: `${m.code}-${c.code}-${String(i + 1).padStart(3, '0')}`, material: m.code, class: c.code, supplier, supplierLot, instrument, role: 'challenge', axis, unit, values });
+		}
+	}
+	return rows;
+}
+
+/** Raman challenge: citric acid anhydrous at 70 % with a filler's strong band near 1001 cm⁻¹ and one near 620 cm⁻¹. */
+function fillerCut(axis: Float64Array, s: State, instrument: string, rng: Rng, quantum: number): Float64Array {
+	const base = spectrumOf('citric-anhydrous', axis, s, instrument, rng, quantum);
+	const extra = new Float64Array(axis.length);
+	addBands(extra, axis, [{ center: 1001, fwhm: 9, height: 0.55, shape: 'lorentz' }, { center: 620, fwhm: 14, height: 0.2, shape: 'lorentz' }], s.mult, s.shift * 2, s.width);
+	for (let i = 0; i < base.length; i++) base[i] = Math.round((0.7 * base[i] + extra[i]) / quantum) * quantum;
+	return base;
+}
+
 interface LotScanSpec {
 	lotKey: string;
 	material: string;
@@ -350,6 +400,8 @@ function stamp([y, mo, d, h, mi]: number[], plusSeconds: number): { jcamp: strin
 export function demoScenario(options: { seed?: number } = {}): DemoScenario {
 	const { seed = DEFAULT_SEED } = options;
 	const rng = createRng(seed);
+	// The held-out validation spectra come from their own stream, so adding them changed none of the other spectra.
+	const hold = createRng((seed ^ 0x5eed1e55) >>> 0);
 	const encoder = new TextEncoder();
 	const lotCounter: Record<string, number> = {};
 	const nextLot = (supplier: string, year: number) => {
@@ -408,6 +460,8 @@ export function demoScenario(options: { seed?: number } = {}): DemoScenario {
 				}
 			}
 		}
+		rows.push(...heldOut(m, axis, unit, quantum, hold));
+		for (const c of HELD_OUT_CHALLENGES[m.code] ?? []) material.challenges.push({ code: c.code, description: c.description });
 		materials.push(material);
 		library.push(...rows);
 		const cols = ['id', 'class', 'supplier', 'supplier_lot', 'instrument', 'role'];

@@ -86,21 +86,32 @@ describe('names the database seed relies on', () => {
 describe('reference libraries', () => {
 	const count = (material: string, cls: string, role: string) => s.library.filter((r) => r.material === material && r.class === cls && r.role === role).length;
 
-	test('60 + 20 genuine, 30 + 10 per suspect, and the LAC-200 challenge rows', () => {
+	test('60 + 20 (+ 12 held-out lots) genuine, 30 + 10 per suspect, and the challenge rows', () => {
 		for (const m of s.materials)
 			for (const c of m.classes) {
-				const [train, testN] = c.kind === 'genuine' ? [60, 20] : [30, 10];
+				const [train, testN] = c.kind === 'genuine' ? [60, 32] : [30, 10];
 				expect(count(m.code, c.code, 'training'), `${m.code}/${c.code}`).toBe(train);
 				expect(count(m.code, c.code, 'test'), `${m.code}/${c.code}`).toBe(testN);
 			}
 		expect(count('LAC-200', 'talc-cut', 'challenge')).toBe(10);
 		expect(count('LAC-200', 'not-lactose', 'challenge')).toBe(10);
+		expect(count('MCC-100', 'not-mcc', 'challenge')).toBe(6);
+		expect(count('CIT-ANH', 'filler-cut', 'challenge')).toBe(6);
+		// the held-out genuine lots never appear among the training lots (issue 12 acceptance criteria)
+		for (const m of s.materials) {
+			const trainingLots = new Set(s.library.filter((r) => r.material === m.code && r.role === 'training').map((r) => r.supplierLot));
+			const held = s.library.filter((r) => r.material === m.code && r.id.includes('-genuine-h'));
+			expect(held.length).toBe(12);
+			expect(new Set(held.map((r) => r.supplierLot)).size).toBe(3);
+			expect(held.some((r) => trainingLots.has(r.supplierLot))).toBe(false);
+		}
 	});
 
 	test('each class spread over 5–6 supplier lots, several suppliers, and both NIR instruments', () => {
 		for (const c of s.classes) {
 			const rows = s.library.filter((r) => r.material === c.material && r.class === c.code);
-			const lots = new Set(rows.map((r) => r.supplierLot));
+			// the 3 held-out genuine lots (later deliveries, test only) come on top of the library's 5–6
+			const lots = new Set(rows.filter((r) => !r.id.includes('-genuine-h')).map((r) => r.supplierLot));
 			expect(lots.size).toBeGreaterThanOrEqual(5);
 			expect(lots.size).toBeLessThanOrEqual(6);
 			expect(new Set(rows.map((r) => r.supplier)).size).toBeGreaterThanOrEqual(2);

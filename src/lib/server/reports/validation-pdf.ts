@@ -104,6 +104,22 @@ export async function validationPdf(v: PublicVersion, auditHead: { seq: number; 
 		p('WARNING: this version has no test or challenge set. USP <1039> Chemometrics expects validation on independent data, and USP <856>/<1856> (near-infrared spectroscopy) expect the library to be challenged with closely related materials.');
 	}
 
+	if (report?.verdictLevel) {
+		h('Per verdict (what the user sees; 95 % Clopper-Pearson intervals)');
+		p('Verdict level: a spectrum counts for a class only when its verdict names that class; a genuine spectrum called suspect is a miss for genuine. The table above is at class-model level.');
+		table(
+			['Class', 'TP', 'FN', 'TN', 'FP', 'Sensitivity', 'Specificity'],
+			report.verdictLevel.map((c) => [c.className, String(c.tp), String(c.fn), String(c.tn), String(c.fp), ci(c.sensitivity), ci(c.specificity)]),
+			[100, 35, 35, 35, 35, (width - 240) / 2, (width - 240) / 2]
+		);
+	}
+	if (v.acceptance) {
+		const a = v.acceptance;
+		h(`Acceptance criteria: ${a.met ? 'all met' : 'NOT met'}`);
+		p(`${a.criteriaRevision === null ? 'Default criteria (common practice)' : `Criteria revision ${a.criteriaRevision}`}, tied to USP <1039> (validation on independent data) and ICH Q2(R2) specificity.`);
+		table(['Criterion', 'Observed', 'Required', 'Result'], a.criteria.map((c) => [c.label, c.observed, c.required, c.met ? 'met' : 'NOT met']), [width * 0.4, width * 0.3, width * 0.15, width * 0.15]);
+	}
+
 	h('Standards');
 	p('Lifecycle per USP <1039> Chemometrics (development, validation, monitoring, update): this version is frozen with its parent, parameters, training membership and exclusions. Challenge set per USP <856>/<1856> (near-infrared spectroscopy). Electronic signature per 21 CFR 11.50/11.70.');
 	doc.moveDown(1);

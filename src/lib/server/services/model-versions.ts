@@ -13,6 +13,7 @@ import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
 import { prepareStored } from './artefact-store';
+import * as acceptance from './acceptance';
 import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
 import * as library from './library';
 import * as materials from './materials';
@@ -117,6 +118,9 @@ interface VersionRow {
 	retired_at: Date | null;
 	pending: Pending;
 	change_note: string | null;
+	review_by?: string | Date | null;
+	revalidation?: { kind: string; at: string; detail: string }[];
+	acceptance?: acceptance.VersionAcceptance | null;
 }
 
 export interface Progress {
@@ -247,7 +251,11 @@ async function toPublic(r: VersionRow, names?: Map<number, string>) {
 		figures: publicFigures(r.figures),
 		validation: r.validation,
 		pending: r.pending,
-		changeNote: r.change_note
+		changeNote: r.change_note,
+		reviewBy: r.review_by ? new Date(r.review_by).toISOString().slice(0, 10) : null,
+		revalidation: r.revalidation ?? [],
+		// stored at approval; for a draft, evaluated now against the material's current criteria
+		acceptance: (r.acceptance ?? (r.state === 'draft' && r.validation ? await acceptance.evaluateVersion(r.id).catch(() => null) : null)) as acceptance.VersionAcceptance | null
 	};
 }
 export type PublicVersion = Awaited<ReturnType<typeof toPublic>>;
@@ -849,6 +857,9 @@ export async function approve(actor: Actor, versionRef: number | string, input: 
 		if (v.state !== 'draft') throw conflict(`Only a draft can be approved; this version is ${v.state}`);
 		if (!v.artefact || !v.artefact_sha256) throw conflict('This version has no artefact');
 		const material = await materials.get(v.material_id);
+		// issue 12 §1: the validation must meet the material's acceptance criteria (409 listing the unmet ones)
+		const evaluation = await acceptance.evaluateVersion(v.id, tx);
+		acceptance.refuseUnmet(`${material.code} v${v.version}`, evaluation);
 		await sequelize().query('SELECT pg_advisory_xact_lock(7402001, :materialId)', { replacements: { materialId: v.material_id }, transaction: tx });
 		const manifestation = await signatures.sign(tx, actor, {
 			password: data.password,
@@ -873,15 +884,25 @@ export async function approve(actor: Actor, versionRef: number | string, input: 
 			});
 		}
 		await sequelize().query(
-			"UPDATE model_versions SET state = 'approved', approved_by = :by, approved_at = :at, approval_signature_id = :sig WHERE id = :id",
-			{ replacements: { id: v.id, by: actor.id, at: new Date(manifestation.signedAt), sig: manifestation.id }, transaction: tx }
+			"UPDATE model_versions SET state = 'approved', approved_by = :by, approved_at = :at, approval_signature_id = :sig, acceptance = :acceptance, review_by = :reviewBy WHERE id = :id",
+			{
+				replacements: {
+					id: v.id,
+					by: actor.id,
+					at: new Date(manifestation.signedAt),
+					sig: manifestation.id,
+					acceptance: JSON.stringify(evaluation),
+					reviewBy: acceptance.reviewByDate(new Date(manifestation.signedAt), evaluation.criteriaValues.reviewMonths)
+				},
+				transaction: tx
+			}
 		);
 		await audit.record(tx, actor, {
 			action: 'model.approved',
 			entity: 'model_version',
 			entityId: v.id,
 			before: { state: 'draft' },
-			after: { state: 'approved', signatureId: manifestation.id, recordHash: manifestation.recordHash, retired: previous.map((p) => p.id) },
+			after: { state: 'approved', signatureId: manifestation.id, recordHash: manifestation.recordHash, retired: previous.map((p) => p.id), acceptanceCriteriaRevision: evaluation.criteriaRevision },
 			reason: data.reason
 		});
 		return { manifestation, retired: previous.map((p) => ({ id: Number(p.id), version: p.version })) };

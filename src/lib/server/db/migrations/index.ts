@@ -9,6 +9,7 @@ import auditAnchor from './010-audit-anchor';
 import sessionsAndDuties from './020-sessions-and-duties';
 import resultIntegrity from './030-result-integrity';
 import qualityGates from './031-quality-gates';
+import acceptanceCriteria from './040-acceptance-criteria';
 import auditorRole from './060-auditor-role';
 import supplierDrift from './080-supplier-drift';
 import instrumentChecks from './081-instrument-checks';
@@ -20,4 +21,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, auditorRole, supplierDrift, instrumentChecks];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks];
