@@ -16,7 +16,9 @@ function lactoseLibrary(): TrainingSpectrum[] {
 	const head = lines[0].split(',');
 	const first = head.findIndex((h) => /^\d/.test(h));
 	const axis = head.slice(first).map(Number);
-	return lines.slice(1).map((l) => {
+	// the 12 held-out genuine spectra added later for the acceptance criteria (ids …-genuine-hNN) were not in the
+	// library when the stored results were made
+	return lines.slice(1).filter((l) => !/^[^,]*-genuine-h\d/.test(l)).map((l) => {
 		const c = l.split(',');
 		return { id: c[0], className: c[1], axis, values: c.slice(first).map(Number), unit: 'nm' as const };
 	});
