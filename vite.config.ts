@@ -12,6 +12,8 @@ export default defineConfig({
 				extends: true,
 				test: {
 					name: 'unit',
+					// a loaded 2-core CI runner makes the heavier numerical tests take several seconds each
+					testTimeout: 30_000,
 					environment: 'node',
 					include: ['tests/unit/**/*.test.ts']
 				}

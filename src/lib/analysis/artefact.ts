@@ -13,7 +13,7 @@ import type { KnnModel } from './knn';
  * 3: model trees (`splits` below level 1). Version 2 artefacts still load and screen as two-level trees.
  */
 export const SCHEMA_VERSION = 3;
-export const SUPPORTED_SCHEMA_VERSIONS = [2, 3] as const;
+export const SUPPORTED_SCHEMA_VERSIONS = [1, 2, 3] as const;
 export const ENGINE_VERSION = '1.0.0';
 
 export interface DistanceSet {
@@ -189,7 +189,6 @@ export function parseArtefact(text: string): ModelArtefact {
 export function validateArtefact(raw: unknown): ModelArtefact {
 	if (!raw || typeof raw !== 'object' || Array.isArray(raw)) return fail('must be a JSON object');
 	const o = raw as Record<string, unknown>;
-	if (o.schemaVersion === 1) fail('schemaVersion 1 was built before artefacts carried an integrity field and cannot be verified: rebuild the model');
 	if (!(SUPPORTED_SCHEMA_VERSIONS as readonly unknown[]).includes(o.schemaVersion))
 		fail(`schemaVersion ${String(o.schemaVersion)} is not supported (this engine reads ${SUPPORTED_SCHEMA_VERSIONS.join(' and ')})`);
 	const axis = o.axis as Record<string, unknown> | undefined;
@@ -214,10 +213,12 @@ export function validateArtefact(raw: unknown): ModelArtefact {
 	if (o.genuine !== null && !(o.classes as string[]).includes(o.genuine as string)) fail(`genuine class "${String(o.genuine)}" is not among the classes`);
 	if ((o.classes as string[]).length > 0 && o.genuine === null) fail('a class model set needs a genuine class');
 	if (typeof o.meta !== 'object' || o.meta === null) fail('meta must be an object');
-	if (o.schemaVersion === 2 && o.splits !== undefined) fail('splits need schemaVersion 3');
+	if ((o.schemaVersion === 1 || o.schemaVersion === 2) && o.splits !== undefined) fail('splits need schemaVersion 3');
 	if (o.splits !== undefined) checkSplits(o.splits, o.classes as string[], p);
 	// after the shape (so a broken file names what is broken): the content hash, then every derivable quantity
-	verifyIntegrity(o);
+	// Version 1 predates the integrity field; it still screens as a two-level tree, guarded by the recomputation of
+	// every derivable quantity below (a hand-set c_crit is refused) and, on the server, by the recorded SHA-256.
+	if (o.schemaVersion !== 1) verifyIntegrity(o);
 	checkDerived(raw as ModelArtefact);
 	return raw as ModelArtefact;
 }
@@ -270,4 +271,9 @@ function checkSplits(raw: unknown, classes: string[], p: number): void {
 			if (!Array.isArray(cls) || [...cls].sort().join('\u0000') !== [...children].sort().join('\u0000')) fail(`${where}.classifier classes must be the children`);
 		}
 	});
+}
+
+/** True when the artefact carries an integrity field (schemaVersion 2 and later); version 1 is only re-derived. */
+export function isSealed(artefact: { schemaVersion: number }): boolean {
+	return artefact.schemaVersion >= 2;
 }

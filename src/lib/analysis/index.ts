@@ -12,7 +12,7 @@ export { decide } from './classify';
 export type { ScreenResult, PreparedArtefact } from './screen';
 export { screen, prepareArtefact } from './screen';
 export type { ModelArtefact, ModelJson, DistanceSet } from './artefact';
-export { serializeArtefact, parseArtefact, validateArtefact, SCHEMA_VERSION, ENGINE_VERSION } from './artefact';
+export { serializeArtefact, parseArtefact, validateArtefact, isSealed, SCHEMA_VERSION, ENGINE_VERSION } from './artefact';
 export { sealArtefact, artefactDigest, verifyIntegrity, checkDerived } from './integrity';
 export { alphaRefusal, CLASS_ALPHA_BOUNDS, FAMILY_ALPHA_BOUNDS } from './alpha-bounds';
 export type { ValidationReport, ClassPerformance, Interval } from './metrics';

@@ -6,6 +6,7 @@ import {
 	AnalysisError,
 	buildModel,
 	parseArtefact,
+	isSealed,
 	prepareArtefact,
 	screen,
 	serializeArtefact,
@@ -249,6 +250,8 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 		if (e instanceof AnalysisError) throw new CliError(`${values.model}: ${e.message}`);
 		throw e;
 	}
+	if (!isSealed(artefact))
+		process.stderr.write(`${values.model}: schemaVersion 1 has no integrity field; its limits were re-derived from its own data and agree. Rebuild it to seal it.\n`);
 	const prep = prepareArtefact(artefact);
 	const unit = unitOf(values.unit);
 	const libraries: FamilyCandidate[] = (values.library ?? []).map((file) => {

@@ -30,8 +30,9 @@ describe('determinism and speed', () => {
 		expect(digest(demoScenario({ seed: 7 }))).not.toBe(digest(s));
 	});
 
-	test('generating the whole scenario takes under 2 s', () => {
-		expect(elapsed).toBeLessThan(2000);
+	// a guard against an accidental blow-up, not a timing target (the bench times it): quiet machines take ~1 s
+	test('generating the whole scenario stays well under 20 s', () => {
+		expect(elapsed).toBeLessThan(20_000);
 	});
 
 	test('fixtures/demo holds exactly what the generator writes (regenerate with the script if not)', () => {
