@@ -1,5 +1,4 @@
 // Shared pieces of the evidence plots: group colours AND shapes (never colour alone), exports, and metadata grouping.
-import Papa from 'papaparse';
 import { toCsv } from '$lib/csv';
 
 /** Colour-blind-safe palette (Okabe–Ito order), paired with a distinct point shape per group. */
