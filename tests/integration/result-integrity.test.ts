@@ -13,6 +13,7 @@ import * as dispositions from '../../src/lib/server/services/dispositions';
 import * as invalidations from '../../src/lib/server/services/invalidations';
 import * as lots from '../../src/lib/server/services/lots';
 import * as scans from '../../src/lib/server/services/scans';
+import * as scorecards from '../../src/lib/server/services/scorecards';
 import { makeUser, unique } from '../support/factories';
 import { approvedMaterial, corrupt, jcamp, type LotFixture } from '../support/lot-fixtures';
 
@@ -120,6 +121,18 @@ describe('result policy', () => {
 		// A decided invalidation is final.
 		await expect(invalidations.refuse(qa2.actor, lot.id, bad.scanId, sig(qa2))).rejects.toMatchObject({ status: 404 });
 		await expect(sequelize().query("UPDATE scan_invalidations SET description = 'edited' WHERE id = :id", { replacements: { id: proposed.id } })).rejects.toThrow(/never edited/);
+	});
+
+	it('the supplier scorecard counts a retested container with its failing verdict until QA approves the invalidation', async () => {
+		const count = async (verdict: string) =>
+			(await scorecards.scorecard(fx.supplierCode)).verdicts.filter((v) => v.verdict === verdict).reduce((n, v) => n + v.count, 0);
+		const [genuine0, suspect0] = [await count('genuine'), await count('suspect')];
+		const { lot, bad } = await failedThenRetested(93500);
+		// container 1 genuine; container 2 suspect despite its genuine retest (the latest scan no longer decides)
+		expect([await count('genuine'), await count('suspect')]).toEqual([genuine0 + 1, suspect0 + 1]);
+		await invalidations.propose(chemo.actor, lot.id, bad.scanId, { cause: 'instrument-fault', description: 'lamp warming up: reference scan drifted' });
+		await invalidations.approve(qa1.actor, lot.id, bad.scanId, sig(qa1));
+		expect([await count('genuine'), await count('suspect')]).toEqual([genuine0 + 2, suspect0]);
 	});
 
 	it('self-approval is refused with 403 even for a user who holds both roles; a refusal leaves the result standing', async () => {

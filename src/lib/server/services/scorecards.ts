@@ -1,5 +1,7 @@
 // Supplier scorecard for procurement: lots received, identity pass rate, verdicts by profile, a monthly trend and the
-// open alerts. Set-based reads only; the counted scan of a container is its latest valid one, as on the lot page.
+// open alerts. Set-based reads only. A container counts with its worst material verdict over every scan that is not
+// invalidated (the result policy of container-results.ts); unusable scans are laboratory or instrument problems and
+// never count against the supplier.
 import { QueryTypes } from 'sequelize';
 import { sequelize } from '../db';
 import * as alerts from './alerts';
@@ -37,15 +39,13 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		   SELECT DISTINCT ON (sc.lot_id, sc.container) sc.lot_id, sc.verdict, sc.profile
 		     FROM scans sc JOIN lots l ON l.id = sc.lot_id
 		    WHERE l.supplier_id = :id AND sc.verdict IN (:valid)
-		    ORDER BY sc.lot_id, sc.container, sc.id DESC)
+		      AND NOT EXISTS (SELECT 1 FROM scan_invalidations si WHERE si.scan_id = sc.id AND si.state = 'approved')
+		    ORDER BY sc.lot_id, sc.container,
+		             array_position(ARRAY['not-this-material','unknown','suspect','genuine']::text[], sc.verdict), sc.id)
 		 SELECT c.verdict, c.profile, m.code AS material, count(*) AS n
 		   FROM counted c JOIN lots l ON l.id = c.lot_id JOIN materials m ON m.id = l.material_id
 		  GROUP BY c.verdict, c.profile, m.code ORDER BY count(*) DESC, c.verdict, c.profile NULLS FIRST`,
 		{ replacements: { id: supplier.id, valid: VALID_VERDICTS }, type: QueryTypes.SELECT }
-	);
-	const unusable = await sequelize().query<{ n: string }>(
-		"SELECT count(*) AS n FROM scans sc JOIN lots l ON l.id = sc.lot_id WHERE l.supplier_id = :id AND sc.verdict = 'unusable'",
-		{ replacements: { id: supplier.id }, type: QueryTypes.SELECT }
 	);
 	const trendRows = await sequelize().query<{ month: string; received: string; meets: string; fails: string }>(
 		`SELECT to_char(m.month, 'YYYY-MM') AS month,
@@ -86,7 +86,6 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		/** Share of lots that completed screening and met identity. */
 		passRate: meets + fails ? meets / (meets + fails) : null,
 		verdicts: verdicts.map((v) => ({ verdict: v.verdict, profile: v.profile, material: v.material, count: Number(v.n) })),
-		unusableScans: Number(unusable[0]?.n ?? 0),
 		trend,
 		alerts: { open: openAlerts, total: Number(alertCounts.total), high: Number(alertCounts.high) }
 	};
