@@ -1,9 +1,5 @@
 // Spectra intake: the service, and the request path (the real hooks — identity, token check, role guard — then the route).
 import { createHash } from 'node:crypto';
-import type { RequestEvent } from '@sveltejs/kit';
-// @ts-expect-error the internal entry ships no module typings; it is the store `sequence()` reads
-import { with_request_store } from '@sveltejs/kit/internal/server';
-import { encode } from '@auth/core/jwt';
 import { QueryTypes } from 'sequelize';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { sequelize } from '../../src/lib/server/db';
@@ -12,10 +8,10 @@ import * as audit from '../../src/lib/server/services/audit';
 import * as instruments from '../../src/lib/server/services/instruments';
 import * as spectra from '../../src/lib/server/services/spectra';
 import { makeUser, rootActor, unique } from '../support/factories';
+import { call, type Handler } from '../support/http';
 import { csvXy, jcampFile, truncatedJcamp } from '../support/intake-files';
 import { parseSpectrumFile } from '../../src/lib/spectra';
 
-type Handler = (event: RequestEvent) => Promise<Response>;
 const sha = (b: Uint8Array) => createHash('sha256').update(b).digest('hex');
 const future = () => `${new Date().getFullYear() + 1}-12-31`;
 const past = () => `${new Date().getFullYear() - 1}-01-31`;
@@ -23,7 +19,6 @@ const past = () => `${new Date().getFullYear() - 1}-01-31`;
 let admin: Actor;
 let tech: Actor;
 let qa: Actor;
-let hooks: typeof import('../../src/hooks.server');
 let routes: {
 	spectra: typeof import('../../src/routes/api/v1/spectra/+server');
 	one: typeof import('../../src/routes/api/v1/spectra/[id]/+server');
@@ -34,60 +29,12 @@ beforeAll(async () => {
 	admin = (await makeUser(['admin'])).actor;
 	tech = (await makeUser(['technician'])).actor;
 	qa = (await makeUser(['qa'])).actor;
-	hooks = await import('../../src/hooks.server');
 	routes = {
 		spectra: await import('../../src/routes/api/v1/spectra/+server'),
 		one: await import('../../src/routes/api/v1/spectra/[id]/+server'),
 		raw: await import('../../src/routes/api/v1/spectra/[id]/raw/+server')
 	};
 });
-
-const SESSION_COOKIE = 'authjs.session-token';
-/** A real Auth.js session cookie for the user, signed with the test secret, as the sign-in would set it. */
-async function sessionCookie(actor: Actor) {
-	const value = await encode({ token: { uid: actor.id, name: actor.label, sub: String(actor.id), sv: 0, authAt: Math.floor(Date.now() / 1000) }, secret: process.env.AUTH_SECRET!, salt: SESSION_COOKIE });
-	return `${SESSION_COOKIE}=${value}`;
-}
-
-/**
- * One request through the app's `handle` (request id, cross-site check, database health, Auth.js session, identity with
- * instrument tokens, role guard) and then the route handler: what the built server does, without a port.
- */
-async function call(route: Handler, input: Request, params: Record<string, string> = {}, actor?: Actor): Promise<Response> {
-	let request = input;
-	if (actor) {
-		const headers = new Headers(input.headers);
-		headers.set('cookie', await sessionCookie(actor));
-		request = new Request(input, { headers });
-	}
-	const url = new URL(request.url);
-	const jar = new Map((request.headers.get('cookie') ?? '').split(/;\s*/).filter(Boolean).map((c) => [c.slice(0, c.indexOf('=')), c.slice(c.indexOf('=') + 1)] as [string, string]));
-	const cookies = { get: (n: string) => jar.get(n), getAll: () => [...jar].map(([name, value]) => ({ name, value })), set: () => {}, delete: () => {}, serialize: () => '' };
-	const event = {
-		request,
-		url,
-		params,
-		locals: {} as App.Locals,
-		cookies,
-		route: { id: url.pathname },
-		fetch,
-		getClientAddress: () => '127.0.0.1',
-		platform: undefined,
-		setHeaders: () => {},
-		isDataRequest: false,
-		isSubRequest: false,
-		isRemoteRequest: false,
-		tracing: { enabled: false, root: {}, current: {} }
-	} as unknown as RequestEvent;
-	// `sequence()` reads SvelteKit's per-request store, which the server would set up; a pass-through tracer is enough here.
-	const state = { tracing: { record_span: ({ fn }: { fn: (span: unknown) => unknown }) => fn({}) } };
-	return with_request_store({ event, state } as never, () =>
-		hooks.handle({
-			event,
-			resolve: (e) => route(e)
-		})
-	) as Promise<Response>;
-}
 
 function upload(files: { name: string; bytes: Uint8Array }[], init: { token?: string; fields?: Record<string, string> } = {}) {
 	const form = new FormData();
