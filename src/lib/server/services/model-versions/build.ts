@@ -1,0 +1,273 @@
+// Model versions: planning the training membership, refusing unsound builds, and the build job body with its progress.
+import { can } from '../../../permissions';
+import { createHash } from 'node:crypto';
+import { QueryTypes, type Transaction } from 'sequelize';
+import { buildModel, parseRecipe, serializeArtefact } from '../../../analysis';
+import { convertAxis } from '../../../analysis/axis';
+import { sequelize, transaction } from '../../db';
+import { hasRole, type Actor } from '../actor';
+import * as audit from '../audit';
+import { forbidden, invalid } from '../errors';
+import * as library from '../library';
+import * as materials from '../materials';
+import { enqueue } from '../../jobs/boss';
+import { QUEUES } from '../../jobs/queues';
+import { evidence } from './evidence';
+import { row, memberships } from './read';
+import { type ExclusionCategory, minimumFor, buildParamsSchema, type BuildParams, type BuildParamsInput } from './schema';
+import { type Pending, type Progress, type MembershipRow } from './types';
+
+export function requireBuilder(actor: Actor) {
+	if (!hasRole(actor, can.buildModels)) throw forbidden('Only a chemometrician or an admin builds model versions');
+	if (actor.id == null) throw forbidden('A model version is built by a named person');
+}
+
+interface PlannedMembership {
+	entryId: number;
+	included: boolean;
+	category?: ExclusionCategory | null;
+	reason?: string | null;
+	inclusionReason?: string | null;
+}
+
+/** Refuses a build that cannot give a sound model, before any job runs: classes too small, axes without a common range. */
+export async function checkTrainingSet(material: { id: number; code: string }, params: BuildParams, planned: PlannedMembership[]) {
+	const classes = await materials.classes(material.id);
+	if (!classes.some((c) => c.kind === 'genuine')) throw invalid(`${material.code} has no genuine class yet: add it before building`, 'classes');
+	const included = new Set(planned.filter((p) => p.included).map((p) => p.entryId));
+	const entries = (await library.entriesOf(material.id, ['training'])).filter((e) => included.has(e.id));
+	const byClass = new Map<string, number>();
+	for (const e of entries) byClass.set(e.label, (byClass.get(e.label) ?? 0) + 1);
+	const problems: string[] = [];
+	for (const c of classes) {
+		const A = params.components;
+		const need = minimumFor(A);
+		const have = byClass.get(c.name) ?? 0;
+		if (have < need) problems.push(`class ${c.name} has ${have} included training spectra, needs at least ${need} (max(10, A + 3)${A === 'auto' ? '' : ` with A = ${A}`})`);
+	}
+	const familyNeed = minimumFor(params.familyComponents);
+	if (entries.length < familyNeed) problems.push(`the family model has ${entries.length} training spectra, needs at least ${familyNeed}`);
+	if (problems.length) throw invalid(`Cannot build ${material.code}: ${problems.join('; ')}. Add library spectra, re-include some, or lower the fixed component count.`, 'training');
+	if (params.genuine && !classes.some((c) => c.name === params.genuine)) throw invalid(`"${params.genuine}" is not a class of ${material.code}`, 'genuine');
+
+	// A common axis exists only if every spectrum covers one shared interval (after unit conversion).
+	const axes = await sequelize().query<{ id: number; unit: 'nm' | 'cm-1' | 'um'; lo: number; hi: number; first: number; last: number; points: number }>(
+		`SELECT e.id, sp.unit, sp.axis[1] AS first, sp.axis[array_length(sp.axis,1)] AS last, sp.points
+		   FROM library_entries e JOIN spectra sp ON sp.id = e.spectrum_id WHERE e.id IN (:ids)`,
+		{ replacements: { ids: entries.map((e) => e.id) }, type: QueryTypes.SELECT }
+	);
+	const target = axes[0].unit;
+	let lo = -Infinity;
+	let hi = Infinity;
+	let loId = axes[0].id;
+	let hiId = axes[0].id;
+	for (const a of axes) {
+		const [x1, x2] = Array.from(convertAxis([Number(a.first), Number(a.last)], a.unit, target));
+		const [min, max] = [Math.min(x1, x2), Math.max(x1, x2)];
+		if (min > lo) (lo = min), (loId = a.id);
+		if (max < hi) (hi = max), (hiId = a.id);
+	}
+	if (!(hi > lo)) {
+		throw invalid(`Cannot build ${material.code}: the training spectra have no common axis range (entry ${loId} starts at ${lo.toFixed(1)} ${target}, entry ${hiId} ends at ${hi.toFixed(1)} ${target})`, 'training');
+	}
+	const range = parseRecipe(params.recipe).find((s) => s.op === 'range');
+	if (range && range.op === 'range' && (range.from < lo - 1e-9 || range.to > hi + 1e-9)) {
+		throw invalid(`The recipe's range(${range.from},${range.to}) is outside the range every training spectrum covers (${lo.toFixed(1)}–${hi.toFixed(1)} ${target})`, 'recipe');
+	}
+}
+
+export async function planMemberships(materialId: number, parentId: number | null, pending: Pending, extra: Pending['exclude'] = []): Promise<PlannedMembership[]> {
+	const training = await library.entriesOf(materialId, ['training']);
+	const previous = parentId ? new Map((await memberships(parentId)).map((m) => [m.entryId, m])) : new Map<number, MembershipRow>();
+	const excludeNow = new Map([...pending.exclude, ...extra].map((e) => [e.entryId, e]));
+	const includeNow = new Map(pending.include.map((e) => [e.entryId, e]));
+	const trainingIds = new Set(training.map((t) => t.id));
+	for (const id of [...excludeNow.keys(), ...includeNow.keys()]) if (!trainingIds.has(id)) throw invalid(`Library entry ${id} is not a training spectrum of this material`, 'entryIds');
+	return training
+		.filter((t) => t.kind != null) // challenge aliens never train; training rows always carry a class
+		.map((t) => {
+			const ex = excludeNow.get(t.id);
+			if (ex) return { entryId: t.id, included: false, category: ex.category, reason: ex.reason };
+			const inc = includeNow.get(t.id);
+			if (inc) return { entryId: t.id, included: true, inclusionReason: inc.reason };
+			const prev = previous.get(t.id);
+			if (prev && !prev.included) return { entryId: t.id, included: false, category: prev.category, reason: prev.reason };
+			return { entryId: t.id, included: true, inclusionReason: prev?.inclusionReason ?? null };
+		});
+}
+
+export async function insertVersion(tx: Transaction, actor: Actor, materialId: number, params: BuildParams, planned: PlannedMembership[], parentId: number | null, changeNote: string | null) {
+	await sequelize().query('SELECT pg_advisory_xact_lock(7402001, :materialId)', { replacements: { materialId }, transaction: tx });
+	const [next] = await sequelize().query<{ n: number }>('SELECT coalesce(max(version), 0) + 1 AS n FROM model_versions WHERE material_id = :materialId', {
+		replacements: { materialId },
+		type: QueryTypes.SELECT,
+		transaction: tx
+	});
+	const [created] = await sequelize().query<{ id: number; version: number }>(
+		`INSERT INTO model_versions (material_id, version, state, params, progress, parent_id, built_by, change_note)
+		 VALUES (:materialId, :version, 'building', :params, :progress, :parentId, :builtBy, :changeNote) RETURNING id, version`,
+		{
+			replacements: {
+				materialId,
+				version: Number(next.n),
+				params: JSON.stringify(params),
+				progress: JSON.stringify({ stage: 'queued', message: 'Waiting for a build worker', percent: 0 }),
+				parentId,
+				builtBy: actor.id,
+				changeNote
+			},
+			type: QueryTypes.SELECT,
+			transaction: tx
+		}
+	);
+	if (planned.length) {
+		const values = planned.map((_, i) => `(:v, :e${i}, :in${i}, :c${i}, :r${i}, :ir${i})`).join(',');
+		const replacements: Record<string, unknown> = { v: created.id };
+		planned.forEach((p, i) => {
+			replacements[`e${i}`] = p.entryId;
+			replacements[`in${i}`] = p.included;
+			replacements[`c${i}`] = p.included ? null : p.category;
+			replacements[`r${i}`] = p.included ? null : p.reason;
+			replacements[`ir${i}`] = p.included ? (p.inclusionReason ?? null) : null;
+		});
+		await sequelize().query(
+			`INSERT INTO model_memberships (model_version_id, library_entry_id, included, exclusion_category, exclusion_reason, inclusion_reason) VALUES ${values}`,
+			{ replacements, transaction: tx }
+		);
+	}
+	return { id: Number(created.id), version: Number(created.version) };
+}
+
+export interface BuildOptions {
+	/** Run in this process instead of queueing (demo seed, bench); the request path always queues. */
+	inline?: boolean;
+	/** Initial exclusions for a first build. */
+	exclude?: Pending['exclude'];
+}
+
+/** Creates a `building` version with its training membership, then queues the build. Returns { id, jobId }. */
+export async function createBuild(actor: Actor, materialRef: number | string, input: BuildParamsInput, options: BuildOptions = {}) {
+	requireBuilder(actor);
+	const material = await materials.get(materialRef);
+	const params = buildParamsSchema.parse(input ?? {});
+	const exclude = (options.exclude ?? []).map((e) => ({ ...e, reason: e.reason.trim() }));
+	if (exclude.some((e) => !e.reason)) throw invalid('Every exclusion needs a reason', 'reason');
+	const planned = await planMemberships(material.id, null, { exclude: [], include: [] }, exclude);
+	await checkTrainingSet(material, params, planned);
+	const created = await transaction(async (tx) => {
+		const v = await insertVersion(tx, actor, material.id, params, planned, null, params.note ?? null);
+		await audit.record(tx, actor, {
+			action: 'model.build-requested',
+			entity: 'model_version',
+			entityId: v.id,
+			after: { material: material.code, version: v.version, params, training: planned.filter((p) => p.included).length, excluded: planned.filter((p) => !p.included).length },
+			reason: params.note ?? 'new model version'
+		});
+		return v;
+	});
+	return start(created.id, options.inline);
+}
+
+export async function start(id: number, inline?: boolean) {
+	if (inline) {
+		await runBuild(id);
+		return { id, jobId: null as string | null };
+	}
+	const jobId = await enqueue(QUEUES.modelBuild, { versionId: id });
+	await sequelize().query('UPDATE model_versions SET job_id = :jobId WHERE id = :id', { replacements: { id, jobId } });
+	return { id, jobId: jobId as string | null };
+}
+
+/** The build itself (job handler, or inline): never throws; a failure leaves state `failed` with the reason. */
+export async function runBuild(versionId: number): Promise<void> {
+	const started = performance.now();
+	let lastWrite = 0;
+	let pendingWrite: Promise<unknown> = Promise.resolve();
+	const writeProgress = (p: Progress, force = false) => {
+		const now = performance.now();
+		// Throttled: a 7-fold build of 4 models reports hundreds of steps; the page polls about once a second.
+		if (!force && now - lastWrite < 250) return;
+		lastWrite = now;
+		pendingWrite = pendingWrite.then(() =>
+			sequelize().query("UPDATE model_versions SET progress = :p WHERE id = :id AND state = 'building'", {
+				replacements: { id: versionId, p: JSON.stringify({ ...p, at: new Date().toISOString() }) }
+			})
+		);
+	};
+	try {
+		const v = await row(versionId);
+		if (v.state !== 'building') return;
+		const material = await materials.get(v.material_id);
+		const classes = await materials.classes(v.material_id);
+		const members = (await memberships(versionId)).filter((m) => m.included);
+		writeProgress({ stage: 'loading', message: `Loading ${members.length} training spectra`, percent: 1 }, true);
+		// One read of the whole library: the training set, and the held-out spectra the evidence screens.
+		const everything = await library.withSpectra((await library.entriesOf(v.material_id, ['training', 'test', 'challenge'])).map((e) => e.id));
+		const memberIds = new Set(members.map((m) => m.entryId));
+		const training = everything.filter((e) => memberIds.has(e.id));
+		const params = v.params;
+		const groupKey = params.groupBy;
+		const groupOf = (e: library.LibraryRow) => (groupKey === 'supplier_lot' ? e.supplierLot : groupKey === 'supplier' ? e.supplier : groupKey === 'instrument' ? e.instrument : null);
+		const useGroups = groupKey !== 'none' && training.some((e) => groupOf(e));
+		const genuine = params.genuine ?? classes.find((c) => c.kind === 'genuine')?.name;
+		const artefact = buildModel(
+			training.map((e) => ({ id: String(e.id), axis: e.axis, values: e.values, unit: e.unit, className: e.label, group: useGroups ? (groupOf(e) ?? null) : null })),
+			{
+				recipe: params.recipe,
+				components: params.components,
+				familyComponents: params.familyComponents,
+				alpha: params.alpha,
+				familyAlpha: params.familyAlpha,
+				gamma: params.gamma,
+				limits: params.limits,
+				folds: params.folds,
+				speLimit: params.speLimit,
+				genuine,
+				meta: { material: material.code, version: String(v.version), versionId: String(v.id), technique: material.technique },
+				onProgress: (p: { done: number; total: number; stage: string; model: string; fold?: number; folds?: number; message: string }) => {
+					const percent = p.total ? Math.min(95, 5 + Math.round((90 * (p.done ?? 0)) / p.total)) : undefined;
+					writeProgress({ ...p, percent });
+				}
+			}
+		);
+		writeProgress({ stage: 'validating', message: 'Screening test and challenge spectra', percent: 96 }, true);
+		const text = serializeArtefact(artefact);
+		const sha = createHash('sha256').update(text).digest('hex');
+		const { figures, validation } = evidence(everything, artefact, members, classes, started);
+		await pendingWrite;
+		await transaction(async (tx) => {
+			await sequelize().query(
+				`UPDATE model_versions SET state = 'draft', artefact = :artefact, artefact_sha256 = :sha, engine_version = :engine, figures = :figures,
+				        validation = :validation, progress = :progress, finished_at = now(), error = NULL WHERE id = :id AND state = 'building'`,
+				{
+					replacements: {
+						id: versionId,
+						artefact: text,
+						sha,
+						engine: artefact.engineVersion,
+						figures: JSON.stringify(figures),
+						validation: JSON.stringify(validation),
+						progress: JSON.stringify({ stage: 'done', message: `Built in ${(figures.buildMs / 1000).toFixed(1)} s`, percent: 100, at: new Date().toISOString() })
+					},
+					transaction: tx
+				}
+			);
+			await audit.record(tx, { id: v.built_by, label: `build job for user ${v.built_by}`, roles: [] }, {
+				action: 'model.built',
+				entity: 'model_version',
+				entityId: versionId,
+				after: { state: 'draft', artefactSha256: sha, engineVersion: artefact.engineVersion, models: figures.models.map((m) => ({ name: m.name, A: m.components, cvFalseRejectRate: m.cvFalseRejectRate })) }
+			});
+		});
+	} catch (error) {
+		await pendingWrite.catch(() => {});
+		const message = error instanceof Error ? error.message : String(error);
+		await transaction(async (tx) => {
+			await sequelize().query(
+				"UPDATE model_versions SET state = 'failed', error = :message, progress = jsonb_set(progress, '{stage}', '\"failed\"'), finished_at = now() WHERE id = :id AND state = 'building'",
+				{ replacements: { id: versionId, message }, transaction: tx }
+			);
+			await audit.record(tx, { id: null, label: 'build job', roles: [] }, { action: 'model.build-failed', entity: 'model_version', entityId: versionId, after: { error: message } });
+		}).catch((e) => console.error('[model-build] could not record the failure', e));
+	}
+}
