@@ -43,8 +43,8 @@ describe('receiving a lot', () => {
 
 	it('applies a reduced plan only with policy, qualified supplier and justification; the seed reproduces the choice', async () => {
 		const lot = await receive(40, { plan: { kind: 'n', justification: 'qualified supplier, validated chain', seed: 20250601 } });
-		expect(lot.sampled).toEqual([2, 4, 6, 15, 18, 32, 33, 38]); // docs/methods.md §15 worked example
-		expect(lot.plan.formula).toContain('⌈7.325⌉ = 8');
+		expect(lot.sampled).toEqual([2, 4, 6, 15, 32, 33, 38]); // docs/methods.md §15 worked example (n = round(1 + √40) = 7)
+		expect(lot.plan.formula).toContain('round(7.325) = 7');
 		await expect(receive(40, { plan: { kind: 'n' } })).rejects.toMatchObject({ status: 400, field: 'justification' });
 		const strict = await approvedMaterial({ withModel: false, policy: 'every-container' });
 		await expect(

@@ -3,16 +3,21 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { chooseContainers, makePlan, mulberry32, nPlan, planCount, pPlan, rPlan, type PlanKind } from '../../src/lib/analysis/sampling';
 
-// WHO TRS 929 (2005), Annex 4: n = 1 + √N, p = 0.4·√N, r = 1.5·√N, always rounded up (formulas from memory of the
-// Annex, as fixed in the design; methods-references §I). Expected values below are computed by hand from them.
+// WHO TRS 929 (2005), Annex 4, Appendix 5 (rounding notes read in a public copy, quoted in docs/methods.md §15):
+// n = 1 + √N by simple rounding; p = 0.4·√N and r = 1.5·√N rounded up to the next highest integer.
+// Expected values below are computed by hand from those formulas.
 describe('WHO TRS 929 Annex 4 plan sizes', () => {
 	it.each([
 		// N, n, p, r
-		[1, 1, 1, 1], // n = ⌈2⌉ capped at N = 1
-		[2, 2, 1, 2], // n = ⌈2.414⌉ = 3 capped at 2; r = ⌈2.121⌉ = 3 capped at 2
+		[1, 1, 1, 1], // n = round(2) capped at N = 1
+		[2, 2, 1, 2], // n = round(2.414) = 2; r = ⌈2.121⌉ = 3 capped at 2
+		[3, 3, 1, 3], // n = round(2.732) = 3 (Appendix 5's table says 2 "up to 3", from memory; the formula wins)
 		[4, 3, 1, 3], // √4 = 2: n = 3 exactly, p = ⌈0.8⌉, r = 3 exactly
-		[10, 5, 2, 5], // √10 = 3.162: n = ⌈4.162⌉, p = ⌈1.265⌉, r = ⌈4.743⌉
+		[10, 4, 2, 5], // √10 = 3.162: n = round(4.162) = 4 (rounding up would give 5), p = ⌈1.265⌉, r = ⌈4.743⌉
+		[12, 4, 2, 6], // √12 = 3.464: n = round(4.464) = 4, r = ⌈5.196⌉
+		[13, 5, 2, 6], // √13 = 3.606: n = round(4.606) = 5 (the table's 7–13 → 4 disagrees at 13), r = ⌈5.408⌉
 		[25, 6, 2, 8], // √25 = 5: n = 6, p = 2 exactly, r = ⌈7.5⌉
+		[40, 7, 3, 10], // √40 = 6.325: n = round(7.325) = 7, p = ⌈2.530⌉, r = ⌈9.487⌉
 		[100, 11, 4, 15], // √100 = 10: exact values, nothing to round
 		[225, 16, 6, 23] // √225 = 15: 0.4·15 = 6.000000000000001 in floating point must stay 6; r = ⌈22.5⌉
 	])('N = %i → n %i, p %i, r %i', (N, n, p, r) => {
@@ -67,6 +72,20 @@ describe('reproducible random choice', () => {
 		expect(p.pooled).toBe(2);
 		expect(planCount('p', 7)).toEqual({ count: 7, pooled: 2 });
 	});
+
+	it('the r-plan identity-tests every container, then picks r at random for individual testing', () => {
+		const r = makePlan({ containers: 40, kind: 'r', seed: 5 });
+		expect(r.count).toBe(40);
+		expect(r.sampled).toEqual(Array.from({ length: 40 }, (_, i) => i + 1));
+		expect(r.furtherTesting).toHaveLength(10);
+		expect(r.furtherTesting).toEqual(chooseContainers(40, 10, 5));
+		expect(planCount('r', 40)).toEqual({ count: 40, pooled: null, further: 10 });
+	});
+
+	it('only the n-plan screens fewer than N containers', () => {
+		expect(makePlan({ containers: 40, kind: 'n', seed: 5 }).sampled).toHaveLength(7);
+		for (const kind of ['every', 'p', 'r'] as const) expect(makePlan({ containers: 40, kind, seed: 5 }).sampled).toHaveLength(40);
+	});
 });
 
 describe('docs/methods.md §15 worked example is executed', () => {
@@ -75,7 +94,7 @@ describe('docs/methods.md §15 worked example is executed', () => {
 	const cases = (block?.[1] ?? '')
 		.split('\n')
 		.filter((l) => l.trim())
-		.map((l) => JSON.parse(l) as { containers: number; seed: number; kind: PlanKind; count: number; pooled?: number; sampled?: number[] });
+		.map((l) => JSON.parse(l) as { containers: number; seed: number; kind: PlanKind; count: number; pooled?: number; sampled?: number[]; further?: number[] });
 
 	it('the document holds the example', () => expect(cases.length).toBeGreaterThanOrEqual(3));
 	it.each(cases.map((c) => [c.kind, c] as const))('%s-plan', (_kind, c) => {
@@ -84,5 +103,6 @@ describe('docs/methods.md §15 worked example is executed', () => {
 		expect(plan.sampled).toHaveLength(c.count);
 		if (c.pooled !== undefined) expect(plan.pooled).toBe(c.pooled);
 		if (c.sampled) expect(plan.sampled).toEqual(c.sampled);
+		if (c.further) expect(plan.furtherTesting).toEqual(c.further);
 	});
 });

@@ -1,8 +1,10 @@
-// Sampling plans for incoming containers (pure). Formulas: WHO TRS 929 (2005), Annex 4; see docs/methods.md §15.
-//   n-plan  n = ⌈1 + √N⌉     uniform material from a recognised, qualified source: identity-test n containers
-//   p-plan  p = ⌈0.4·√N⌉     uniform material: identity-test EVERY container, then pool into p samples for further tests
-//   r-plan  r = ⌈1.5·√N⌉     non-uniform or poorly known material: identity-test r containers
-// Every count is capped at N. The containers of an n- or r-plan are drawn at random from a recorded seed.
+// Sampling plans for incoming containers (pure). Formulas: WHO TRS 929 (2005), Annex 4, §5.1 and Appendix 5;
+// the wording and where it was read are quoted in docs/methods.md §15.
+//   n-plan  n = round(1 + √N)  simple rounding; uniform material from a recognised source: identity-test n containers
+//   p-plan  p = ⌈0.4·√N⌉      rounded up; identity-test EVERY container, then pool into p samples for further tests
+//   r-plan  r = ⌈1.5·√N⌉      rounded up; non-uniform or poorly known material: identity-test EVERY container, then
+//                             r containers chosen at random are tested individually (the other tests)
+// Every count is capped at N. Only the n-plan identity-tests fewer than N containers.
 
 export type PlanKind = 'every' | 'n' | 'p' | 'r';
 export const PLAN_KINDS: PlanKind[] = ['every', 'n', 'p', 'r'];
@@ -10,9 +12,9 @@ export const MAX_CONTAINERS = 10_000;
 
 export const PLAN_LABELS: Record<PlanKind, string> = {
 	every: 'Every container',
-	n: 'n-plan (n = 1 + √N)',
+	n: 'n-plan (n = 1 + √N, identity on n containers)',
 	p: 'p-plan (p = 0.4·√N, identity on every container)',
-	r: 'r-plan (r = 1.5·√N)'
+	r: 'r-plan (r = 1.5·√N, identity on every container)'
 };
 
 export interface SamplingPlan {
@@ -23,6 +25,8 @@ export interface SamplingPlan {
 	count: number;
 	/** p-plan only: pooled samples formed after identity testing every container. */
 	pooled: number | null;
+	/** r-plan only: the r containers (1..N, ascending) chosen at random for individual further testing, after every container passed identity. */
+	furtherTesting: number[] | null;
 	/** Unsigned 32-bit seed of the random choice (recorded so the choice can be reproduced). */
 	seed: number;
 	/** Container numbers (1..N, ascending) to identity-test. */
@@ -40,10 +44,14 @@ function checkN(N: number) {
 	if (!Number.isInteger(N) || N < 1 || N > MAX_CONTAINERS) throw new RangeError(`containers must be a whole number from 1 to ${MAX_CONTAINERS}, got ${N}`);
 }
 
-/** n = ⌈1 + √N⌉, capped at N. */
+// Simple rounding to the nearest integer. 1 + √N is never exactly k + ½ for a whole N ((k − ½)² is not whole), so the
+// tie rule does not matter.
+const roundPlain = (x: number) => Math.round(x);
+
+/** n = round(1 + √N) (Annex 4: "simple rounding"), capped at N. */
 export function nPlan(N: number): number {
 	checkN(N);
-	return Math.min(N, ceilSafe(1 + Math.sqrt(N)));
+	return Math.min(N, roundPlain(1 + Math.sqrt(N)));
 }
 
 /** p = ⌈0.4·√N⌉, capped at N (at least 1). */
@@ -52,7 +60,7 @@ export function pPlan(N: number): number {
 	return Math.min(N, Math.max(1, ceilSafe(0.4 * Math.sqrt(N))));
 }
 
-/** r = ⌈1.5·√N⌉, capped at N. */
+/** r = ⌈1.5·√N⌉ (Annex 4: rounded up to the next highest integer), capped at N. Identity is tested on every container regardless. */
 export function rPlan(N: number): number {
 	checkN(N);
 	return Math.min(N, ceilSafe(1.5 * Math.sqrt(N)));
@@ -103,6 +111,7 @@ export function makePlan(input: { containers: number; kind?: PlanKind; seed: num
 				containers: N,
 				count: N,
 				pooled: null,
+				furtherTesting: null,
 				seed,
 				sampled: chooseContainers(N, N, seed),
 				formula: `every container: ${N} of ${N}`,
@@ -115,10 +124,11 @@ export function makePlan(input: { containers: number; kind?: PlanKind; seed: num
 				containers: N,
 				count: n,
 				pooled: null,
+				furtherTesting: null,
 				seed,
 				sampled: chooseContainers(N, n, seed),
-				formula: `n = ⌈1 + √${N}⌉ = ⌈${r3(1 + rootN)}⌉ = ${ceilSafe(1 + rootN)}${n < ceilSafe(1 + rootN) ? `, capped at N = ${N}` : ''}`,
-				basis: `WHO TRS 929 Annex 4 n-plan: ${n} of ${N} containers chosen at random (seed ${seed}); uniform material from a qualified supplier.`
+				formula: `n = round(1 + √${N}) = round(${r3(1 + rootN)}) = ${roundPlain(1 + rootN)}${n < roundPlain(1 + rootN) ? `, capped at N = ${N}` : ''}`,
+				basis: `WHO TRS 929 Annex 4 n-plan: ${n} of ${N} containers chosen at random (seed ${seed}) for identity; uniform material from a qualified supplier.`
 			};
 		}
 		case 'p': {
@@ -128,6 +138,7 @@ export function makePlan(input: { containers: number; kind?: PlanKind; seed: num
 				containers: N,
 				count: N,
 				pooled: p,
+				furtherTesting: null,
 				seed,
 				sampled: chooseContainers(N, N, seed),
 				formula: `p = ⌈0.4·√${N}⌉ = ⌈${r3(0.4 * rootN)}⌉ = ${p}`,
@@ -139,21 +150,22 @@ export function makePlan(input: { containers: number; kind?: PlanKind; seed: num
 			return {
 				kind,
 				containers: N,
-				count: r,
+				count: N,
 				pooled: null,
+				furtherTesting: chooseContainers(N, r, seed),
 				seed,
-				sampled: chooseContainers(N, r, seed),
-				formula: `r = ⌈1.5·√${N}⌉ = ⌈${r3(1.5 * rootN)}⌉ = ${ceilSafe(1.5 * rootN)}${r < ceilSafe(1.5 * rootN) ? `, capped at N = ${N}` : ''}`,
-				basis: `WHO TRS 929 Annex 4 r-plan: ${r} of ${N} containers chosen at random (seed ${seed}); non-uniform or poorly known material.`
+				sampled: chooseContainers(N, N, seed),
+				formula: `r = ⌈1.5·√${N}⌉ = ⌈${r3(1.5 * rootN)}⌉ = ${ceilSafe(1.5 * rootN)}${r < ceilSafe(1.5 * rootN) ? `, capped at N = ${N}` : ''}; identity on all ${N}`,
+				basis: `WHO TRS 929 Annex 4 r-plan: every container is identity-tested; then ${r} of ${N} containers chosen at random (seed ${seed}) are tested individually; non-uniform or poorly known material.`
 			};
 		}
 	}
 }
 
 /** Counts only (for a form preview before a seed exists). */
-export function planCount(kind: PlanKind, N: number): { count: number; pooled: number | null } {
+export function planCount(kind: PlanKind, N: number): { count: number; pooled: number | null; further?: number } {
 	if (kind === 'n') return { count: nPlan(N), pooled: null };
-	if (kind === 'r') return { count: rPlan(N), pooled: null };
+	if (kind === 'r') return { count: N, pooled: null, further: rPlan(N) };
 	if (kind === 'p') return { count: N, pooled: pPlan(N) };
 	checkN(N);
 	return { count: N, pooled: null };
