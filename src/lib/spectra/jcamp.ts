@@ -1,6 +1,6 @@
 // JCAMP-DX 4.24 / 5.x single-spectrum files. jcampconverter decodes the ordinates; the strict
 // checks it lacks (structure, required labels, units, NPOINTS, line X values, the DIF check value)
-// are ours. Rules: McDonald & Wilks 1988 (Appl. Spectrosc. 42:151), see methods-references §K.
+// are ours. Rules: McDonald & Wilks 1988 (Appl. Spectrosc. 42:151–162), listed in docs/methods.md §14.
 import { convert } from 'jcampconverter';
 import { decodeXYData } from './asdf';
 import { SpectrumFileError } from './errors';

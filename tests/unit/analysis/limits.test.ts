@@ -6,12 +6,12 @@ import { chi2Inv, normalInv } from '../../../src/lib/analysis/quantiles';
 
 describe('Hotelling T² limits', () => {
 	// NIST/SEMATECH e-Handbook §6.5.4.3 (Phase II, new observation) and Tracy, Young & Mason 1992
-	// (training objects); n = 30, k = 3, α = 0.05 verified numerically in methods-references §A [chk].
+	// (training objects); n = 30, k = 3, α = 0.05 verified numerically in docs/methods.md §7.1 [chk].
 	test('n=30, k=3, α=0.05: F-limit 9.857 (new sample), Beta-limit 7.164 (training)', () => {
 		expect(t2LimitNew(30, 3, 0.05)).toBeCloseTo(9.857, 3);
 		expect(t2LimitTraining(30, 3, 0.05)).toBeCloseTo(7.164, 3);
 	});
-	test('F limit approaches χ²_k as n → ∞ (methods-references §A: χ² only as n → ∞)', () => {
+	test('F limit approaches χ²_k as n → ∞ (docs/methods.md §7.1: χ² only as n → ∞)', () => {
 		expect(t2LimitNew(1e6, 3, 0.05)).toBeCloseTo(chi2Inv(0.95, 3), 2);
 	});
 	test('refuses n ≤ k + 1', () => {
@@ -35,7 +35,7 @@ describe('SPE limits', () => {
 		const jm = speJacksonMudholkar(m * lam, m * lam ** 2, m * lam ** 3, 0.05);
 		expect(Math.abs(jm / (lam * chi2Inv(0.95, m)) - 1)).toBeLessThan(0.005);
 	});
-	test('Jackson–Mudholkar uses the one-sided z_{1−α} (formula in methods-references §B)', () => {
+	test('Jackson–Mudholkar uses the one-sided z_{1−α} (formula in docs/methods.md §7.2)', () => {
 		const [t1, t2, t3] = [1.7, 0.9, 0.6];
 		const h0 = 1 - (2 * t1 * t3) / (3 * t2 * t2);
 		const z = normalInv(0.99);
@@ -71,7 +71,7 @@ describe('DD-SIMCA estimators and boundaries', () => {
 		expect(dofMoments([1, 2, 3, 4, 5])).toEqual({ x0: 3, dof: 7 });
 		expect(dofMoments([1, 100]).dof).toBe(1);
 	});
-	// methods-references §C [chk]: the robust estimator's constants recover N = 1…70 and u₀ within 0.5 %
+	// An earlier NumPy/SciPy check for this project (docs/methods.md §7.3) said the robust estimator's constants recover N = 1…70 and u₀ within 0.5 %
 	// when M and S are the exact median and IQR of u₀·χ²(N)/N (Pomerantsev & Rodionova 2014).
 	// Found here: with the constants as printed, N = 1…51 come back exactly and N = 52…70 come back
 	// as N + 1 (the exponent gives 52.53 for N = 52); u₀ stays within 0.5 % throughout.

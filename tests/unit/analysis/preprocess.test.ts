@@ -48,7 +48,7 @@ describe('detrend (Barnes et al. 1989): subtracts the least-squares polynomial',
 });
 
 // Savitzky & Golay 1964 with the Steinier, Termonia & Deltour 1972 corrections; values as tabulated in
-// methods-references §H [chk].
+// docs/methods.md §4 [chk].
 const TABLE: [string, number, number, number, number[], number][] = [
 	['5-point quadratic smooth', 5, 2, 0, [-3, 12, 17, 12, -3], 35],
 	['7-point quadratic smooth', 7, 2, 0, [-2, 3, 6, 7, 6, 3, -2], 21],

@@ -17,7 +17,7 @@ describe('distribution quantiles (jstat) against printed tables', () => {
 	test.each([
 		[0.95, 1, 3.841],
 		[0.95, 2, 5.991],
-		[0.95, 3, 7.815], // also [chk] in methods-references §A
+		[0.95, 3, 7.815], // also [chk] in docs/methods.md §7.1
 		[0.95, 10, 18.307],
 		[0.99, 1, 6.635],
 		[0.99, 5, 15.086],
