@@ -27,6 +27,7 @@ const file = (r: TreeLibraryRow, container: number) => ({
 
 let tech: Actor;
 let materialCode: string;
+let treeVersion: { text: string; builtBy: number };
 let supplierCode: string;
 const lib = treeLibrary();
 
@@ -50,6 +51,7 @@ beforeAll(async () => {
 		 VALUES (:m, 1, 'approved', :params, :artefact, :sha, :engine, :builtBy, now(), now())`,
 		{ replacements: { m: material.id, params: JSON.stringify({ recipe: artefact.recipe }), artefact: text, sha: createHash('sha256').update(text).digest('hex'), engine: artefact.engineVersion, builtBy: builder.id }, type: QueryTypes.INSERT }
 	);
+	treeVersion = { text, builtBy: builder.id };
 	supplierCode = (await suppliers.create(rootActor, { code: unique('TSUP').toUpperCase(), name: 'Tree supplier', status: 'qualified' })).code;
 }, 180_000);
 
@@ -85,4 +87,29 @@ describe('a lot screened with a three-level tree', () => {
 		// evidence only: the verdict is not changed by it
 		expect(wrong.identification!.ranking[0].material).toBe(wrong.identification!.resembles!.material);
 	});
+
+	it('a container rescreened once a model is approved names the material it resembles, stored with the new scan', async () => {
+		const materials = await import('../../src/lib/server/services/materials');
+		const code = unique('LTRR').toUpperCase();
+		const bare = await materials.create(rootActor, { code, name: 'Lactose, rescreened (test)', technique: 'NIR', samplingPolicy: 'every-container' });
+		const mcc = treeLibrary({ step: 2 }).filter((r) => r.className === 'mcc')[3];
+		const lot = await lots.create(tech, { material: code, supplier: supplierCode, supplierLot: unique('SL'), containers: 1, receivedAt: today() });
+		expect(await scans.add(tech, lot.id, file(mcc, 1))).toMatchObject({ verdict: 'not-screened' });
+		await sequelize().query(
+			`INSERT INTO model_versions (material_id, version, state, params, artefact, artefact_sha256, engine_version, built_by, finished_at, approved_at)
+			 VALUES (:m, 1, 'approved', '{}', :artefact, :sha, '1.0.0', :builtBy, now(), now())`,
+			{ replacements: { m: bare.id, artefact: treeVersion.text, sha: createHash('sha256').update(treeVersion.text).digest('hex'), builtBy: treeVersion.builtBy }, type: QueryTypes.INSERT }
+		);
+		const again = await scans.rescreen(tech, lot.id);
+		expect(again.scans[0].verdict).toBe('not-this-material');
+		const res = await call(lotApi, new Request(`http://localhost/api/v1/lots/${lot.id}`), { id: String(lot.id) }, tech, '/api/v1/lots/[id]');
+		const body = (await res.json()) as { containers: { number: number; scans: lots.ScanView[] }[] };
+		const [first, second] = body.containers[0].scans;
+		expect(first.verdict).toBe('not-screened');
+		expect(first.identification ?? null).toBeNull();
+		expect(second.rescreenOf).toBe(first.id);
+		expect(second.identification!.resembles!.material).toMatch(/^MCC/);
+		expect(second.identification!.text).toMatch(new RegExp(`^not ${code}; accepted by the family model of MCC`));
+	});
 });
+

@@ -369,6 +369,8 @@ export async function rescreen(actor: Actor, lotRef: number | string, reason = '
 	const preview = await lots.lotRow(lotId);
 	const model = await approvedModel(preview.material_id);
 	if (!model) throw new ServiceError(409, 'no-approved-model', 'The material still has no approved model version: nothing can be screened');
+	// a wrong material found on rescreen is named as on a first screen (the approved models of now)
+	const others = await identification.candidates(preview.material_id, preparedVersion);
 	return transaction(async (tx) => {
 		const lot = await lots.lotRow(lotId, tx, true);
 		if (isClosed(lot)) throw conflict(`Lot ${lot.internal_lot} is ${lot.status}: a dispositioned lot takes no more scans`);
@@ -387,7 +389,9 @@ export async function rescreen(actor: Actor, lotRef: number | string, reason = '
 				added.push({ scanId: scan.id, container: p.container, verdict: 'unusable', profile: null });
 				continue;
 			}
-			const result = screenStored(model.prep, { id: String(p.spectrum_id), axis: p.axis, values: p.intensities, unit: p.unit });
+			const spectrum = { id: String(p.spectrum_id), axis: p.axis, values: p.intensities, unit: p.unit };
+			let result = screenStored(model.prep, spectrum);
+			if (result.verdict === 'not-this-material') result = { ...result, identification: await identification.forSpectrum(spectrum, others, preview.material_id, tx) } as ScreenResult;
 			const scan = await insertScan(tx, actor, {
 				lotId,
 				container: p.container,
