@@ -1,7 +1,7 @@
 import { AnalysisError } from './errors';
 import { defaultAxis, resampleOnto, restrictAxis, type AxisUnit } from './axis';
 import { fitRowSteps, formatRecipe, maxGapOf, parseRecipe, rangeOf, rowSteps, scalingMode } from './preprocess/recipe';
-import { fitScaling, type ScalingMode } from './preprocess/scaling';
+import { AUTOSCALE_FLOOR, fitScaling, type ScalingMode } from './preprocess/scaling';
 import { gramRows, pca, residualMoments } from './pca';
 import { subtractComponents } from './projection';
 import { crossValidate, foldLayout, smallestFold, suggestComponents } from './crossval';
@@ -108,7 +108,34 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 		throw new AnalysisError('bad-components', `components must be a positive integer or "auto", got ${String(cfg.components)}`);
 	const need = minimumTrainingSize(fixed ?? 1);
 	if (n < need) throw new AnalysisError('too-few', `${label} has ${n} training spectra, needs at least ${need} (max(10, A + 3))`);
-	const layout = foldLayout(n, cfg.folds, groups);
+	// identical spectra have nothing to model; say so instead of failing later on a zero-variance component
+	let spread = 0;
+	let size = 0;
+	for (let j = 0; j < p; j++) {
+		let lo = rows[0][j];
+		let hi = lo;
+		for (let i = 1; i < n; i++) {
+			const v = rows[i][j];
+			if (v < lo) lo = v;
+			else if (v > hi) hi = v;
+		}
+		spread = Math.max(spread, hi - lo);
+		size = Math.max(size, Math.abs(lo), Math.abs(hi));
+	}
+	if (!(spread > 1e-12 * size))
+		throw new AnalysisError('identical-spectra', `${label}: its ${n} training spectra are identical after preprocessing; a model needs training spectra that differ`);
+	let layout: ReturnType<typeof foldLayout>;
+	try {
+		layout = foldLayout(n, cfg.folds, groups);
+	} catch (e) {
+		const lots = groups ? [...new Set(groups.filter((g) => g !== null && g !== undefined && g !== ''))] : [];
+		if (e instanceof AnalysisError && e.code === 'bad-folds' && groups && lots.length === 1 && groups.every((g) => g === lots[0]))
+			throw new AnalysisError(
+				'single-group',
+				`${label}: all ${n} training spectra come from one supplier lot ("${lots[0]}"); grouped cross-validation leaves out whole lots and needs at least 2 — add spectra of another lot to ${label}, or build without grouping`
+			);
+		throw e;
+	}
 	const cap = Math.min(n - 3, p - 1, smallestFold(layout, n) - 1);
 	if (fixed !== null && fixed > cap)
 		throw new AnalysisError('bad-components', `${label}: ${fixed} components need more data (at most ${cap} with ${n} spectra, ${p} points, ${layout.K} folds)`);
@@ -124,12 +151,23 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 	}
 	const Zm = { data: Z, rows: n, cols: p };
 	const gram = n <= p ? gramRows(Zm) : null;
-	const full = pca(Zm, Amax, { gram: gram ?? undefined });
+	let full: ReturnType<typeof pca>;
+	try {
+		full = pca(Zm, Amax, { gram: gram ?? undefined });
+	} catch (e) {
+		if (e instanceof AnalysisError && e.code === 'rank-deficient')
+			throw new AnalysisError('rank-deficient', `${label}: ${e.message}; the training spectra span fewer independent directions than the component count, so fix fewer components (maxComponents) or add spectra that differ`);
+		throw e;
+	}
 	const cv = crossValidate(rows, Zm, gram, cfg.mode, layout, Amax, cfg.progress, cfg.variableBlocks);
 	const suggested = suggestComponents(cv.press);
 	const parsimonious = suggestComponents(cv.press, PARSIMONY_TOLERANCE);
 	const A = fixed ?? suggested;
 	const warnings: string[] = [];
+	if (sc.floor && sc.floor.count > 0)
+		warnings.push(
+			`${label}: ${sc.floor.count} variable${sc.floor.count === 1 ? ' has' : 's have'} a training s.d. below the autoscale floor (${AUTOSCALE_FLOOR} × the median s.d. = ${sc.floor.value.toPrecision(3)}); ${sc.floor.count === 1 ? 'it is' : 'they are'} divided by the floor instead of ${sc.floor.count === 1 ? 'its' : 'their'} own s.d.`
+		);
 	if (fixed === null && suggested === Amax)
 		warnings.push(
 			`${label}: the suggested component count equals the cap (${Amax}): PRESS still falls there, so the count may be fitting noise; the parsimony rule (smallest A within ${PARSIMONY_TOLERANCE * 100} % of the minimum PRESS) gives ${parsimonious}; consider fixing A`
@@ -302,6 +340,11 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 		else if (classes.length === 1) genuine = classes[0];
 		else throw new AnalysisError('bad-genuine', `several classes (${classes.join(', ')}) and none is named "genuine": name the genuine class`);
 	}
+	if (classes.length === 0 && components !== 'auto')
+		throw new AnalysisError(
+			'bad-option',
+			`components (${String(components)}) sets the class models, but the training spectra have no classes; for a family-only model set familyComponents (--family-components) instead`
+		);
 	const fixedA = components === 'auto' ? 1 : components;
 	for (const c of classes) {
 		const count = labels.filter((l) => l === c).length;

@@ -186,7 +186,7 @@ export function pca(X: Mat, k: number, options: { gram?: Float64Array; tol?: num
 		const mu = Math.max(eig.values[a], 0);
 		eigenvalues[a] = mu / (n - 1);
 		if (useRows && !(Math.sqrt(mu) > 0))
-			throw new AnalysisError('rank-deficient', `component ${a + 1} has zero variance: the data have rank below ${k}`);
+			throw new AnalysisError('rank-deficient', `the data have rank ${a} after centring, below the ${k} components requested (component ${a + 1} has zero variance)`);
 	}
 	if (useRows) {
 		// p_a = Xᵀu_a/s_a and t_a = s_a·u_a, with s_a = √μ_a

@@ -32,9 +32,12 @@ export interface GateThresholds {
  *   (an empty probe, a closed shutter, a reference measured against itself).
  * - absorbanceMax 5: absorbance spectra of solids stay well under 5; values up to 100 with none below 0 are percent.
  */
+/** Default flat range: the engine's own `screen` uses the same value, so the command line and the server agree (§9, §22). */
+export const DEFAULT_FLAT_RANGE = 1e-6;
+
 export function defaultThresholds(technique: Technique): GateThresholds {
 	return {
-		flatRange: 1e-6,
+		flatRange: DEFAULT_FLAT_RANGE,
 		saturationRun: 5,
 		ordinateCeiling: technique === 'Raman' ? 65535 : 3.0,
 		noSampleRatio: 0.05,

@@ -6,6 +6,7 @@ import { decide, type Verdict } from './classify';
 import { validateArtefact, type ModelArtefact, type ModelJson } from './artefact';
 import type { SpectrumInput } from './build';
 import { prepareSplits, walkSplits, type PreparedSplit } from './tree-screen';
+import { DEFAULT_FLAT_RANGE } from './quality-gates';
 import type { LevelEvidence } from './tree';
 
 export interface ScreenResult {
@@ -95,6 +96,15 @@ export function screen(artefact: ModelArtefact | PreparedArtefact, spectrum: Spe
 	if (!spectrum || !spectrum.axis || !spectrum.values) return unusable(id, 'spectrum has no axis or values');
 	const r = resampleOnto(spectrum, prep.axis, { maxGap: prep.maxGap });
 	if (!r.ok) return unusable(id, r.reason);
+	// A flat spectrum carries no material information; under `center` it would otherwise be judged far from the
+	// family and called not-this-material. Same rule and default as the server's flat gate (docs/methods.md §9, §22).
+	let lo = Infinity;
+	let hi = -Infinity;
+	for (const v of r.values) {
+		if (v < lo) lo = v;
+		if (v > hi) hi = v;
+	}
+	if (hi - lo <= DEFAULT_FLAT_RANGE) return unusable(id, `the spectrum is flat on the model axis (max − min = ${(hi - lo).toPrecision(3)}, at most ${DEFAULT_FLAT_RANGE} counts as flat)`);
 	let x: Float64Array;
 	try {
 		x = prep.pipeline.apply(r.values);

@@ -119,9 +119,14 @@ describe('recipe text syntax', () => {
 });
 
 describe('column scaling', () => {
-	test('autoscale uses the n − 1 standard deviation; constant columns keep scale 1', () => {
+	test('autoscale uses the n − 1 standard deviation; a constant column is divided by the floor 0.1 × median s.d.', () => {
+		// column 1: 1, 3, 5 → s = 2 (hand-computed); column 2 constant → floor 0.1 × 2 = 0.2
 		const s = fitScaling([Float64Array.from([1, 5]), Float64Array.from([3, 5]), Float64Array.from([5, 5])], 'autoscale');
 		expect(Array.from(s.mean)).toEqual([3, 5]);
-		expect(Array.from(s.scale)).toEqual([2, 1]);
+		expect(Array.from(s.scale)).toEqual([2, 0.2]);
+	});
+	test('when no column varies, the scale stays 1', () => {
+		const s = fitScaling([Float64Array.from([1, 5]), Float64Array.from([1, 5])], 'autoscale');
+		expect(Array.from(s.scale)).toEqual([1, 1]);
 	});
 });
