@@ -8,6 +8,7 @@ import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { inflateSync } from 'node:zlib';
+import { layoutLabels } from '../../layout/label-layout';
 
 const require = createRequire(import.meta.url);
 // The package exports no font paths, but it does export its LICENSE, which sits beside files/.
@@ -448,15 +449,24 @@ function drawPlot(
 	heading: (t: string) => void
 ) {
 	const height = 190;
-	ensure(height + 70);
+	const limit = plot.cOutlier ?? plot.cCrit;
+	// Axes reach just past the outlier boundary; a container beyond them is not drawn but listed under the plot.
+	const cap = limit * 1.6;
+	const offScale = plot.lot.filter((p) => p.x > cap || p.y > cap);
+	const onScale = plot.lot.filter((p) => !(p.x > cap || p.y > cap));
+	const noteText = offScale.length
+		? latin(
+				`Off scale, not drawn (beyond ${num(cap, 1)} on an axis): ` +
+					offScale.map((p) => `container ${p.container} (${verdictText({ verdict: p.verdict, profile: null, ambiguous: false })}; Nh·h/h0 = ${num(p.x, 1)}, Nq·v/v0 = ${num(p.y, 1)})`).join('; ') +
+					'.'
+			)
+		: '';
+	ensure(height + 70 + (noteText ? 30 : 0));
 	heading(`Distance plot (${plot.model} model, DD-SIMCA)`);
 	const box = { x: left + 42, y: doc.y + 4, w: Math.min(width - 60, 360), h: height };
-	const all = [...plot.training, ...plot.lot.map((p) => [p.x, p.y] as [number, number])];
-	const limit = plot.cOutlier ?? plot.cCrit;
-	// Axes reach just past the outlier boundary; a point beyond it is pinned to the edge and labelled "off scale".
-	const cap = limit * 1.6;
-	const maxX = Math.max(limit * 1.15, ...all.map((p) => Math.min(p[0], cap)));
-	const maxY = Math.max(limit * 1.15, ...all.map((p) => Math.min(p[1], cap)));
+	const shown = [...plot.training.filter(([x, y]) => x <= cap && y <= cap), ...onScale.map((p) => [p.x, p.y] as [number, number])];
+	const maxX = Math.max(limit * 1.15, ...shown.map((p) => p[0]));
+	const maxY = Math.max(limit * 1.15, ...shown.map((p) => p[1]));
 	const sx = (x: number) => box.x + (Math.min(Math.max(x, 0), maxX) / maxX) * box.w;
 	const sy = (y: number) => box.y + box.h - (Math.min(Math.max(y, 0), maxY) / maxY) * box.h;
 
@@ -467,15 +477,24 @@ function drawPlot(
 	doc.fillOpacity(1);
 	doc.moveTo(sx(plot.cCrit), sy(0)).lineTo(sx(0), sy(plot.cCrit)).lineWidth(1).strokeColor(VERDICT_COLOUR.genuine).stroke();
 	if (plot.cOutlier) doc.moveTo(sx(plot.cOutlier), sy(0)).lineTo(sx(0), sy(plot.cOutlier)).lineWidth(0.8).dash(3, { space: 2 }).strokeColor(VERDICT_COLOUR['not-this-material']).stroke().undash();
-	for (const [x, y] of plot.training) doc.circle(sx(x), sy(y), 1.3).fillColor('#9aa5ad').fill();
+	const training = plot.training.filter(([x, y]) => x <= maxX && y <= maxY).map(([x, y]) => ({ x: sx(x), y: sy(y) }));
+	for (const t of training) doc.circle(t.x, t.y, 1.3).fillColor('#9aa5ad').fill();
 	doc.restore();
-	for (const p of plot.lot) {
-		verdictMark(doc, p.verdict, sx(p.x), sy(p.y), 3.4);
-		const off = p.x > maxX || p.y > maxY;
-		const label = off ? `${p.container} (off scale)` : String(p.container);
-		const lx = Math.min(sx(p.x) + 4, box.x + box.w - 40);
-		doc.font('body').fontSize(6.5).fillColor(INK).text(label, lx, sy(p.y) + (off && p.y > maxY ? 4 : -8), { lineBreak: false });
-	}
+
+	// Container labels: laid out without overlap (label-layout.ts); a label moved away from its point gets a leader line.
+	const labelSize = 6.5;
+	doc.font('body').fontSize(labelSize);
+	// The label box is the line box pdfkit sets the number in (ascender to descender), so boxes apart means glyphs apart.
+	const lineHeight = doc.currentLineHeight();
+	const requests = onScale.map((p, i) => ({ id: String(i), x: sx(p.x), y: sy(p.y), width: doc.widthOfString(String(p.container)), height: lineHeight }));
+	const layout = layoutLabels(requests, { left: box.x + 1, top: box.y + 1, right: box.x + box.w - 1, bottom: box.y + box.h - 1 }, { markerRadius: 3.6, gap: 1, avoid: training });
+	doc.save().lineWidth(0.4).strokeColor(MUTED);
+	for (const l of layout.placed) if (l.leader) doc.moveTo(l.leader.x1, l.leader.y1).lineTo(l.leader.x2, l.leader.y2).stroke();
+	doc.restore();
+	for (const p of onScale) verdictMark(doc, p.verdict, sx(p.x), sy(p.y), 3.4);
+	for (const l of layout.placed) doc.font('body').fontSize(labelSize).fillColor(INK).text(String(onScale[Number(l.id)].container), l.x, l.y, { lineBreak: false });
+	const unlabelled = layout.unplaced.map((id) => onScale[Number(id)].container);
+
 	// Axis ticks at 0, c_crit and the axis end.
 	doc.font('body').fontSize(7).fillColor(MUTED);
 	for (const t of [0, plot.cCrit, maxX]) doc.text(num(t, 1), sx(t) - 12, box.y + box.h + 3, { width: 24, align: 'center', lineBreak: false });
@@ -490,8 +509,13 @@ function drawPlot(
 	doc.text('green line: c = c crit', legendX, box.y + 14, { width: width - (legendX - left), lineBreak: false });
 	doc.text('red dashes: outlier limit', legendX, box.y + 24, { width: width - (legendX - left), lineBreak: false });
 	doc.text('numbers: containers', legendX, box.y + 34, { width: width - (legendX - left), lineBreak: false });
+	doc.text('thin lines: label moved', legendX, box.y + 44, { width: width - (legendX - left), lineBreak: false });
 	doc.x = left;
 	doc.y = box.y + box.h + 28;
+	if (unlabelled.length)
+		doc.font('body').fontSize(7.5).fillColor(MUTED).text(latin(`No room for the labels of containers ${unlabelled.join(', ')}; their marks are drawn, their figures are in the table above.`), left, doc.y, { width });
+	if (noteText) doc.font('body').fontSize(7.5).fillColor(INK).text(noteText, left, doc.y + 2, { width });
+	doc.x = left;
 }
 
 /** The hash printed on every page: sha256 of the canonical JSON of the content (the PDF cannot contain its own hash). */
