@@ -28,7 +28,8 @@ const ENTRIES = {
 	lotgate: ['src/lib/cli/main.ts', `import { main } from './src/lib/cli/main.ts';\nprocess.exitCode = await main(process.argv.slice(2));\n`],
 	migrate: ['scripts/migrate.ts', `import './scripts/migrate.ts';\n`],
 	'audit-verify': ['scripts/audit-verify.ts', `import './scripts/audit-verify.ts';\n`],
-	'audit-checkpoint': ['scripts/audit-checkpoint.ts', `import './scripts/audit-checkpoint.ts';\n`]
+	'audit-checkpoint': ['scripts/audit-checkpoint.ts', `import './scripts/audit-checkpoint.ts';\n`],
+	worker: ['scripts/worker.ts', `import './scripts/worker.ts';\n`]
 };
 
 const isBuiltin = (id) => id.startsWith('node:') || builtinModules.includes(id.split('/')[0]);

@@ -41,7 +41,9 @@ const env: NodeJS.ProcessEnv = {
 	// adapter-node assumes https without ORIGIN, which would refuse every form post on plain local http.
 	ORIGIN: process.env.ORIGIN ?? `http://127.0.0.1:${port}`,
 	// adapter-node refuses bodies over 512 kB by default; the intake applies its own per-file limit.
-	BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? '256M'
+	BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? '256M',
+	// One machine, one process: the app also works the job queues (production runs `npm run worker` processes instead).
+	LOTGATE_JOBS_IN_PROCESS: process.env.LOTGATE_JOBS_IN_PROCESS ?? '1'
 };
 Object.assign(process.env, env);
 

@@ -10,6 +10,7 @@ import { plainPage } from '$lib/server/plain-page';
 import { installJobs, startWorkers, stopJobs } from '$lib/server/jobs';
 import { instrumentForToken } from '$lib/server/tokens';
 import { startCheckpoints, stopCheckpoints } from '$lib/server/audit-checkpoint';
+import { jobsInProcess } from '$lib/server/worker';
 
 const PUBLIC_PREFIXES = ['/login', '/auth/', '/health', '/_app/', '/favicon'];
 const isPublic = (path: string) => PUBLIC_PREFIXES.some((p) => path === p || path.startsWith(p));
@@ -171,15 +172,19 @@ export const handleError: HandleServerError = ({ error, event, status }) => {
 export const init: ServerInit = async () => {
 	// Every job in $lib/server/jobs (JOBS) registers its queue and producer-side wiring (the mail outbox hand-off).
 	installJobs();
-	// In the background, retrying: the server must come up (and answer 503) even while the database is down.
-	const start = () =>
-		startWorkers().catch((error) => {
-			console.error('[jobs] workers not started, retrying in 10 s:', error.message);
-			setTimeout(start, 10_000).unref();
-		});
-	void start();
-	// Audit checkpoints outside the database: one now, then hourly (and one with every certificate).
-	startCheckpoints();
+	// The web process only enqueues; `npm run worker` processes work the queues and write the hourly audit checkpoint.
+	// LOTGATE_JOBS_IN_PROCESS=1 (npm start, the browser tests, a one-machine install) does both in this process.
+	if (jobsInProcess()) {
+		// In the background, retrying: the server must come up (and answer 503) even while the database is down.
+		const start = () =>
+			startWorkers().catch((error) => {
+				console.error('[jobs] workers not started, retrying in 10 s:', error.message);
+				setTimeout(start, 10_000).unref();
+			});
+		void start();
+		// Audit checkpoints outside the database: one now, then hourly (and one with every certificate).
+		startCheckpoints();
+	}
 	// adapter-node's graceful shutdown: release the job workers and the pool so the process can exit.
 	process.once('sveltekit:shutdown' as never, async () => {
 		stopCheckpoints();

@@ -8,9 +8,9 @@ import { fileURLToPath } from 'node:url';
 
 export const projectRoot = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
 const TREES = ['src', 'static', 'scripts/lib'];
-const FILES = ['package.json', 'package-lock.json', 'svelte.config.js', 'vite.config.ts', 'tailwind.config.ts', 'tsconfig.json', 'scripts/build.mjs', 'scripts/migrate.ts', 'scripts/audit-verify.ts', 'scripts/audit-checkpoint.ts'];
+const FILES = ['package.json', 'package-lock.json', 'svelte.config.js', 'vite.config.ts', 'tailwind.config.ts', 'tsconfig.json', 'scripts/build.mjs', 'scripts/migrate.ts', 'scripts/audit-verify.ts', 'scripts/audit-checkpoint.ts', 'scripts/worker.ts'];
 /** What the build produces; all must exist for the stamp to count. */
-const OUTPUTS = ['build/index.js', 'dist/lotgate.js', 'dist/migrate.js', 'dist/audit-verify.js', 'dist/audit-checkpoint.js'];
+const OUTPUTS = ['build/index.js', 'dist/lotgate.js', 'dist/migrate.js', 'dist/audit-verify.js', 'dist/audit-checkpoint.js', 'dist/worker.js'];
 const stampFile = resolve(projectRoot, 'build', '.source-hash');
 
 /** @param {string} dir @param {string[]} out */

@@ -24,6 +24,7 @@ export default async function setup(project: TestProject) {
 		HOST: '127.0.0.1',
 		ORIGIN: `http://127.0.0.1:${port}`,
 		BODY_SIZE_LIMIT: '256M',
+		LOTGATE_JOBS_IN_PROCESS: '1',
 		LOTGATE_AUDIT_KEY: 'e2e-test-audit-key-0123456789',
 		LOTGATE_AUDIT_CHECKPOINT_DIR: mkdtempSync(join(tmpdir(), 'lotgate-e2e-checkpoints-'))
 	};

@@ -11,8 +11,10 @@ export interface Job {
 	queue: QueueName;
 	retryLimit: number;
 	handler: JobHandler;
-	/** Producer-side wiring run once when the server starts (e.g. the mail outbox hand-off and sweep). */
+	/** Producer-side wiring run once in every process that may enqueue (e.g. the mail outbox hand-off). */
 	install?: () => void;
+	/** Worker-side wiring run once when a process starts working the queues (e.g. the outbox sweep). */
+	work?: () => void;
 }
 
 let instance: Promise<PgBoss> | null = null;

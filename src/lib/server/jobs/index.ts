@@ -11,7 +11,7 @@ export { QUEUES, type QueueName } from './queues';
 export const JOBS: Job[] = [modelBuildJob, mailJob];
 
 let installed = false;
-/** Registers every job's queue and runs its producer-side wiring; once per process, at server start. */
+/** Registers every job's queue and runs its producer-side wiring; once per process (web server or worker). */
 export function installJobs() {
 	if (installed) return;
 	installed = true;
@@ -21,8 +21,12 @@ export function installJobs() {
 	}
 }
 
-/** Starts the workers of every job (installing them first if needed). */
+let working = false;
+/** Starts the workers of every job (installing them first if needed): the worker process, or a one-process install. */
 export async function startWorkers() {
 	installJobs();
 	await startQueues();
+	if (working) return;
+	working = true;
+	for (const job of JOBS) job.work?.();
 }

@@ -14,6 +14,8 @@ export const mailJob: Job = {
 		setDispatcher(async (outboxId) => {
 			await enqueue(QUEUES.mail, { outboxId });
 		});
+	},
+	work: () => {
 		// Messages committed while the queue was unreachable wait in the outbox; hand them over again now and then.
 		const sweep = setInterval(() => {
 			stranded(60)
