@@ -206,6 +206,8 @@ describe('QA disposition in the browser', () => {
 		expect(created.status, await created.clone().text()).toBe(201);
 		await buyer.goto(`/suppliers/${code}`);
 		const form = buyer.getByTestId('request-status-form');
+		// No status is chosen for the buyer.
+		expect(await form.getByLabel('New status').inputValue()).toBe('');
 		await form.getByLabel('New status').selectOption('on-watch');
 		await form.getByLabel('Reason').fill('Late certificates of analysis twice this quarter');
 		await form.getByRole('button', { name: 'Request the change' }).click();
@@ -217,6 +219,13 @@ describe('QA disposition in the browser', () => {
 		await qa.goto(`/suppliers/${code}`);
 		const approve = qa.getByTestId('approve-status-form');
 		await approve.getByLabel('Reason').fill('Agree: watch until the CAPA closes');
+		await approve.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
+		// The meaning starts empty; signing without one is refused beside the field and changes nothing.
+		expect(await approve.getByLabel('Meaning').inputValue()).toBe('');
+		await approve.getByRole('button', { name: 'Co-sign the change' }).click();
+		await approve.getByText('Choose the meaning of your signature').waitFor();
+		expect((await db.query('SELECT status FROM suppliers WHERE code = $1', [code])).rows[0].status).toBe('qualified');
+		await approve.getByLabel('Meaning').selectOption('supplier status change approved');
 		await approve.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
 		await approve.getByRole('button', { name: 'Co-sign the change' }).click();
 		await qa.locator('h1 [data-status="on-watch"]').waitFor();

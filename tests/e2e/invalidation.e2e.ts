@@ -109,6 +109,14 @@ describe('invalidation journey', () => {
 		const qEntry = qa.locator(`[data-testid="scan-entry"][data-scan="${bad.scanId}"]`);
 		await qEntry.getByLabel('Your reason').fill('Lab log and photo confirm the presentation fault');
 		await qEntry.getByLabel('Your password (re-enter to sign)').fill(DEMO_PASSWORD);
+		// The meaning of the signature starts empty: deciding without one is refused beside the scan, nothing changes.
+		expect(await qEntry.getByLabel('Meaning of your signature').inputValue()).toBe('');
+		await qEntry.getByRole('button', { name: 'Approve invalidation' }).click();
+		await expect.poll(() => qEntry.getByTestId('invalidation-error').textContent(), { timeout: 20_000 }).toContain('Choose what the signature means');
+		expect(await qEntry.getByTestId('invalidation-text').getAttribute('data-state')).toBe('proposed');
+		await qEntry.getByLabel('Meaning of your signature').fill('invalidation approved: assignable laboratory cause');
+		await qEntry.getByLabel('Your reason').fill('Lab log and photo confirm the presentation fault');
+		await qEntry.getByLabel('Your password (re-enter to sign)').fill(DEMO_PASSWORD);
 		await qEntry.getByRole('button', { name: 'Approve invalidation' }).click();
 		await expect.poll(() => qEntry.getByTestId('invalidation-text').getAttribute('data-state'), { timeout: 20_000 }).toBe('approved');
 		const names = (await db.query<{ email: string; name: string }>("SELECT email, name FROM users WHERE email IN ('chemist@demo.test','qa@demo.test')")).rows;

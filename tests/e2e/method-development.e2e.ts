@@ -23,6 +23,10 @@ async function waitForDraft(page: Page) {
 
 async function approveAs(page: Page, versionUrl: string, reason: string) {
 	await page.goto(`${versionUrl}/approve`);
+	// The meaning of the signature is never pre-selected: the signer chooses it.
+	const meaning = page.getByLabel('Meaning of this signature');
+	expect(await meaning.inputValue()).toBe('');
+	await meaning.selectOption('approved for screening');
 	await page.getByLabel('Reason').fill(reason);
 	await page.getByLabel(/Your password/).fill(process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate');
 	await Promise.all([page.waitForURL(versionUrl), page.getByRole('button', { name: 'Sign and approve' }).click()]);

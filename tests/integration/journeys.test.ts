@@ -3,6 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { makeUser, unique } from '../support/factories';
 import { approvedMaterial, jcamp, type LotFixture } from '../support/lot-fixtures';
+import type { Actor } from '../../src/lib/server/services/actor';
 
 type Svc = {
 	lots: typeof import('../../src/lib/server/services/lots');
@@ -160,5 +161,88 @@ describe('evidence that cannot be reused', () => {
 		// A header naming this very lot and container needs nothing.
 		const own = jcamp('genuine', fx.axis, seed++, `${fx.materialCode}, lot ${lot.supplierLot}, container 2`);
 		await expect(s.scans.add(tech.actor, lot.id, { bytes: own, fileName: 'c2.jdx', container: 2 })).resolves.toMatchObject({ container: 2 });
+	});
+});
+
+describe('forms that sign or record choose nothing for the user (issue 17 item 5)', () => {
+	type Out = { status?: number; data?: { form?: { data: Record<string, unknown>; errors: Record<string, string[] | undefined> } } } | undefined;
+	/** A page's load through the app's hooks, as the built server runs it; returns what the load returned. */
+	async function load(mod: { load: (e: never) => unknown }, path: string, params: Record<string, string>, actor: Actor) {
+		const { call } = await import('../support/http');
+		let data: Record<string, unknown> = {};
+		const res = await call(async (e) => ((data = (await mod.load(e as never)) as Record<string, unknown>), new Response(null)), new Request(`http://127.0.0.1${path}`), params, actor);
+		expect(res.status).toBe(200);
+		return data;
+	}
+	/** A named form action posted with these fields; returns the action's answer (a failure carries status and data). */
+	async function post(mod: { actions: Record<string, (e: never) => unknown> }, name: string, path: string, params: Record<string, string>, actor: Actor, fields: Record<string, string>) {
+		const { call } = await import('../support/http');
+		const body = new FormData();
+		for (const [k, v] of Object.entries(fields)) body.set(k, v);
+		let out: Out;
+		await call(async (e) => ((out = (await mod.actions[name](e as never)) as Out), new Response(null, { status: out?.status ?? 200 })), new Request(`http://127.0.0.1${path}?/${name}`, { method: 'POST', body }), params, actor);
+		return out;
+	}
+	const formOf = (data: Record<string, unknown>, key: string) => (data[key] as { data: Record<string, unknown> }).data;
+
+	it('the supplier status request starts with no status and the co-signature with no meaning; missing ones are refused by name', async () => {
+		const page = await import('../../src/routes/(app)/suppliers/[code]/+page.server');
+		const supplierStatus = await import('../../src/lib/server/services/supplier-status');
+		const buyer = await makeUser(['procurement']);
+		const suppliers = await import('../../src/lib/server/services/suppliers');
+		const code = unique('SS').toUpperCase();
+		await suppliers.create(buyer.actor, { code, name: 'Status choice test', status: 'qualified' });
+		const path = `/suppliers/${code}`;
+		expect(formOf(await load(page, path, { code }, buyer.actor), 'requestForm').status).toBe('');
+		const noStatus = await post(page, 'requestStatus', path, { code }, buyer.actor, { reason: 'Late certificates twice this quarter' });
+		expect(noStatus?.status).toBe(400);
+		expect(noStatus?.data?.form?.errors.status?.[0]).toBe('Choose the new status: qualified, on watch or blocked');
+		expect(await supplierStatus.forSupplier((await suppliers.get(code)).id)).toHaveLength(0);
+
+		const r = await supplierStatus.request(buyer.actor, code, { status: 'on-watch', reason: 'Late certificates twice this quarter' });
+		const qaView = await load(page, path, { code }, qa1.actor);
+		expect(formOf(qaView, 'approveForm').meaning).toBe('');
+		const noMeaning = await post(page, 'approveStatus', path, { code }, qa1.actor, { requestId: String(r.id), reason: 'Agree until the CAPA closes', password: qa1.password });
+		expect(noMeaning?.status).toBe(400);
+		expect(noMeaning?.data?.form?.errors.meaning?.[0]).toBe('Choose the meaning of your signature');
+		expect((await suppliers.get(code)).status).toBe('qualified');
+	});
+
+	it('model approval starts with no meaning and is refused without one', async () => {
+		const page = await import('../../src/routes/(app)/materials/[code]/versions/[version]/approve/+page.server');
+		const params = { code: fx.materialCode, version: '1' };
+		const path = `/materials/${fx.materialCode}/versions/1/approve`;
+		expect(formOf(await load(page, path, params, qa1.actor), 'form').meaning).toBe('');
+		const out = await post(page, 'default', path, params, qa1.actor, { reason: 'Validated on the challenge set', password: qa1.password });
+		expect(out?.status).toBe(400);
+		expect(out?.data?.form?.errors.meaning?.[0]).toBe('Choose the meaning of your signature');
+	});
+
+	it('a new class starts with no kind and is refused without one', async () => {
+		const page = await import('../../src/routes/(app)/materials/[code]/+page.server');
+		const chemist = await makeUser(['chemometrician']);
+		const params = { code: fx.materialCode };
+		const path = `/materials/${fx.materialCode}`;
+		expect(formOf(await load(page, path, params, chemist.actor), 'classForm').kind).toBe('');
+		const out = await post(page, 'addClass', path, params, chemist.actor, { name: 'talc-cut', description: 'cut with talc' });
+		expect(out?.status).toBe(400);
+		expect((out?.data as unknown as { classForm: { errors: Record<string, string[]> } }).classForm.errors.kind?.[0]).toBe('Choose the kind: genuine or suspect profile');
+		const materials = await import('../../src/lib/server/services/materials');
+		expect((await materials.classes(fx.materialId)).map((c) => c.name)).not.toContain('talc-cut');
+	});
+
+	it('an invalidation decision without a meaning is refused naming the field (400, not a server error)', async () => {
+		const invalidations = await import('../../src/lib/server/services/invalidations');
+		const lot = await failedLot();
+		const failing = lot.scans.find((x) => x.verdict !== 'genuine')!;
+		const chemist = await makeUser(['chemometrician']);
+		await invalidations.propose(chemist.actor, lot.id, failing.id, { cause: 'sample-presentation', description: 'probe window not in contact with the powder' });
+		await expect(invalidations.decide(qa1.actor, lot.id, failing.id, 'approve', { meaning: '', reason: 'lab log confirms it', password: qa1.password })).rejects.toMatchObject({
+			status: 400,
+			field: 'meaning',
+			message: 'Choose what the signature means'
+		});
+		await expect(invalidations.decide(qa1.actor, lot.id, failing.id, 'approve', { meaning: 'invalidation approved: assignable laboratory cause', reason: '', password: qa1.password })).rejects.toMatchObject({ status: 400, field: 'reason' });
+		expect((await s.lots.get(lot.id)).identity).toBe('fails');
 	});
 });

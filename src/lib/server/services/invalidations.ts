@@ -137,7 +137,13 @@ function signedRecord(v: InvalidationView, scan: ScanRow, decision: 'approve' | 
 /** A QA user who did not propose it approves (the scan stops counting) or refuses (the result stands), with a signature. */
 export async function decide(actor: Actor, lotRef: number | string, scanRef: number | string, decision: 'approve' | 'refuse', input: z.input<typeof decisionSchema>) {
 	if (actor.id == null || !hasRole(actor, can.decideInvalidation)) throw forbidden('Only a QA manager approves or refuses an invalidation');
-	const data = decisionSchema.parse(input ?? {});
+	// A missing meaning, reason or password is a refusal naming the field (forms show it beside the scan), never a 500.
+	const parsed = decisionSchema.safeParse(input ?? {});
+	if (!parsed.success) {
+		const issue = parsed.error.issues[0];
+		throw invalid(issue.message, issue.path.join('.') || undefined);
+	}
+	const data = parsed.data;
 	const scanId = parseScanId(scanRef);
 	const lotId = await lots.resolve(lotRef);
 	return transaction(async (tx) => {

@@ -3,6 +3,7 @@ import { fail } from '@sveltejs/kit';
 import { ZodError } from 'zod';
 import { message, superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
+import { chooseOne } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import { ServiceError } from '$lib/server/services/errors';
@@ -11,6 +12,9 @@ import * as materials from '$lib/server/services/materials';
 import * as versions from '$lib/server/services/model-versions';
 import { refuse } from '../service-errors.server';
 import type { Actions, PageServerLoad } from './$types';
+
+// The kind of a new class is the user's choice (a suspect profile recorded as genuine would accept it): never pre-selected.
+const classFormSchema = materials.classSchema.extend({ kind: chooseOne(['genuine', 'suspect'], 'Choose the kind: genuine or suspect profile') });
 
 export const load = (async (event) => {
 	const actor = requireUser(event);
@@ -47,7 +51,7 @@ export const load = (async (event) => {
 		},
 		versions: modelVersions,
 		canManage: hasRole(actor, can.manageMaterials),
-		classForm: await superValidate(zod(materials.classSchema), { id: 'add-class' })
+		classForm: await superValidate(zod(classFormSchema), { id: 'add-class' })
 	};
 }) satisfies PageServerLoad;
 
@@ -67,10 +71,10 @@ export const actions = {
 	addClass: async (event) => {
 		const actor = requireUser(event, can.manageMaterials);
 		const material = await materials.get(event.params.code);
-		const form = await superValidate(event.request, zod(materials.classSchema), { id: 'add-class' });
+		const form = await superValidate(event.request, zod(classFormSchema), { id: 'add-class' });
 		if (!form.valid) return fail(400, { classForm: form });
 		try {
-			const created = await materials.addClass(actor, material.id, form.data);
+			const created = await materials.addClass(actor, material.id, { ...form.data, kind: form.data.kind as 'genuine' | 'suspect' });
 			return message(form, `Added class ${created.name}`);
 		} catch (error) {
 			return refuse(form, error, 'classForm');

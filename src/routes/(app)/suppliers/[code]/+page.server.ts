@@ -3,6 +3,7 @@ import { error, fail } from '@sveltejs/kit';
 import { message, superValidate, type SuperValidated } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
 import { z } from 'zod';
+import { chooseOne } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import { ServiceError } from '$lib/server/services/errors';
@@ -12,9 +13,14 @@ import * as signatures from '$lib/server/services/signatures';
 import * as supplierStatus from '$lib/server/services/supplier-status';
 import type { Actions, PageServerLoad } from './$types';
 
-const approveSchema = signatures.signatureFieldsSchema.extend({ requestId: z.coerce.number().int().positive() });
-const declineSchema = supplierStatus.declineSchema.extend({ requestId: z.coerce.number().int().positive() });
 const STATUS_MEANING = 'supplier status change approved';
+// Neither the new status nor the meaning of the co-signature is chosen for the user: both start empty.
+const approveSchema = signatures.signatureFieldsSchema.extend({
+	requestId: z.coerce.number().int().positive(),
+	meaning: chooseOne([STATUS_MEANING], 'Choose the meaning of your signature')
+});
+const declineSchema = supplierStatus.declineSchema.extend({ requestId: z.coerce.number().int().positive() });
+const requestFormSchema = supplierStatus.requestSchema.extend({ status: chooseOne(['qualified', 'on-watch', 'blocked'], 'Choose the new status: qualified, on watch or blocked') });
 
 export const load = (async (event) => {
 	const actor = requireUser(event);
@@ -25,7 +31,6 @@ export const load = (async (event) => {
 	const requests = await supplierStatus.forSupplier(card.supplier.id);
 	const pending = requests.find((r) => r.state === 'pending') ?? null;
 	const approveForm = await superValidate(zod(approveSchema), { id: 'approve-status' });
-	approveForm.data.meaning = STATUS_MEANING;
 	if (pending) approveForm.data.requestId = pending.id;
 	const declineForm = await superValidate(zod(declineSchema), { id: 'decline-status' });
 	if (pending) declineForm.data.requestId = pending.id;
@@ -38,7 +43,7 @@ export const load = (async (event) => {
 		pending,
 		canRequest: hasRole(actor, can.requestSupplierStatus) && !pending,
 		canCosign: hasRole(actor, can.cosignSupplierStatus) && !!pending && pending.requestedById !== actor.id,
-		requestForm: await superValidate(zod(supplierStatus.requestSchema), { id: 'request-status' }),
+		requestForm: await superValidate(zod(requestFormSchema), { id: 'request-status' }),
 		approveForm,
 		declineForm,
 		meaning: STATUS_MEANING
@@ -73,10 +78,10 @@ export const actions = {
 	},
 	requestStatus: async (event) => {
 		const actor = requireUser(event, can.requestSupplierStatus);
-		const form = await superValidate(event.request, zod(supplierStatus.requestSchema), { id: 'request-status' });
+		const form = await superValidate(event.request, zod(requestFormSchema), { id: 'request-status' });
 		if (!form.valid) return fail(400, { form });
 		try {
-			const r = await supplierStatus.request(actor, event.params.code, form.data);
+			const r = await supplierStatus.request(actor, event.params.code, { ...form.data, status: form.data.status as 'qualified' | 'on-watch' | 'blocked' });
 			return message(form, `Requested ${r.fromStatus} → ${r.toStatus}; a QA manager must co-sign before it applies.`);
 		} catch (e) {
 			return refuse(form, e);
