@@ -59,3 +59,53 @@ describe('downloads are plain downloads (item 19)', () => {
 		await page.context().close();
 	});
 });
+
+describe('a table row selects its scan (item 13)', () => {
+	it('on the lot page: click, Enter and Space select rows; the checkbox still toggles', async () => {
+		const page = await as('technician@demo.test');
+		await page.goto(`/lots/${internalOf.get('lac-diluted')}`);
+		const count = page.getByTestId('selection-count');
+		const row4 = page.locator('tr[data-container="4"]');
+		const row2 = page.locator('tr[data-container="2"]');
+		await row4.locator('td').nth(1).click();
+		await expect(count.textContent()).resolves.toContain('1 selected');
+		await expect(row4.getAttribute('aria-selected')).resolves.toBe('true');
+		await expect(page.getByTestId('selected-scan').textContent()).resolves.toContain('C04');
+		// A plain click on another row selects only that one, as a plain click on a point does.
+		await row2.locator('td').nth(1).click();
+		await expect(count.textContent()).resolves.toContain('1 selected');
+		await expect(row4.getAttribute('aria-selected')).resolves.toBe('false');
+		// Keyboard: rows are reachable by Tab; Space adds the focused row, Enter selects only it.
+		await row4.focus();
+		await page.keyboard.press('Space');
+		await expect(count.textContent()).resolves.toContain('2 selected');
+		await page.keyboard.press('Enter');
+		await expect(count.textContent()).resolves.toContain('1 selected');
+		await expect(row4.getAttribute('aria-selected')).resolves.toBe('true');
+		await expect(row4.getAttribute('tabindex')).resolves.toBe('0');
+		// The checkbox keeps toggling, without the row's click also firing.
+		await row2.locator('input[type=checkbox]').check();
+		await expect(count.textContent()).resolves.toContain('2 selected');
+		expect(page.errors).toEqual([]);
+		await page.context().close();
+	});
+
+	it('on the version page: clicking a spectrum row selects it for exclusion', async () => {
+		const page = await as('chemist@demo.test');
+		await page.goto('/materials/LAC-200/versions/1');
+		const rows = page.getByTestId('members-table').locator('tbody tr[data-entry]');
+		const first = rows.nth(0);
+		const second = rows.nth(1);
+		await first.locator('td').nth(2).click();
+		await expect(page.getByTestId('selection-count').first().textContent()).resolves.toContain('1 selected');
+		await second.locator('td').nth(2).click({ modifiers: ['Shift'] });
+		await expect(page.getByTestId('selection-count').first().textContent()).resolves.toContain('2 selected');
+		await second.focus();
+		await page.keyboard.press('Enter');
+		await expect(page.getByTestId('selection-count').first().textContent()).resolves.toContain('1 selected');
+		await expect(second.getAttribute('aria-selected')).resolves.toBe('true');
+		await expect(page.getByRole('button', { name: 'Exclude 1 selected' }).isEnabled()).resolves.toBe(true);
+		expect(page.errors).toEqual([]);
+		await page.context().close();
+	});
+});
