@@ -58,7 +58,7 @@ describe('a flat spectrum is unusable under every recipe (docs §9 and the flat 
 	const g = gasolineTraining();
 	const a = buildModel(g.slice(0, 30), { recipe: 'center', familyComponents: 3 });
 	test('flat at 0.5 AU under the default `center` recipe: unusable, not not-this-material', () => {
-		const r = screen(a, { id: 'flat', axis: g[0].axis, values: g[0].axis.map(() => 0.5), unit: 'nm' });
+		const r = screen(a, { id: 'flat', axis: g[0].axis, values: Array.from(g[0].axis, () => 0.5), unit: 'nm' });
 		expect(r.verdict).toBe('unusable');
 		expect(r.reason).toMatch(/flat on the model axis/);
 	});
