@@ -23,7 +23,7 @@ async function main() {
 	const lots = await import('../src/lib/server/services/lots');
 	const scans = await import('../src/lib/server/services/scans');
 	const users = await import('../src/lib/server/services/users');
-	const { lotPageData } = await import('../src/routes/(app)/lots/[id]/evidence.server');
+	const { lotPageData } = await import('../src/lib/server/services/lot-evidence');
 	const { rootActor } = await import('../tests/support/factories');
 
 	const s0 = performance.now();

@@ -1,6 +1,7 @@
 import { SvelteKitAuth, CredentialsSignin } from '@auth/sveltekit';
 import Credentials from '@auth/sveltekit/providers/credentials';
 import { AuthenticationError, authenticate } from './services/users';
+import { LRUCache } from 'lru-cache';
 
 /** Idle limit: the cookie's expiry moves on with every request. */
 export const SESSION_MAX_AGE_SECONDS = 8 * 60 * 60;
@@ -18,8 +19,12 @@ export interface LotgateSession {
 	authAt?: number;
 }
 
-/** Seconds to wait after a refused sign-in, by request id, for the /login action's Retry-After (Auth.js keeps only the code). */
-export const signInRetryAfter = new Map<string, number>();
+/**
+ * Seconds to wait after a refused sign-in, by request id, for the /login action's Retry-After (Auth.js keeps only the code).
+ * The /login action deletes its entry once read; an entry nobody reads (a sign-in posted straight to Auth.js) expires
+ * after a minute, and at most 1000 are kept.
+ */
+export const signInRetryAfter = new LRUCache<string, number>({ max: 1000, ttl: 60_000 });
 
 class LotgateSignInError extends CredentialsSignin {
 	retryAfter?: number;

@@ -8,6 +8,7 @@
 // A lot that breaks a rule raises a drift signal when its screening completes (called from the scan workflow, inside
 // its transaction): a drift_signals row, an alert of kind 'drift' (apart from verdict alerts), and an e-mail to
 // procurement and the chemometricians through the outbox. A drift signal never blocks a release.
+import { LRUCache } from 'lru-cache';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { driftSeries, type IndividualsLimits, type RuleHit } from '../../analysis';
@@ -88,17 +89,19 @@ interface LotStat {
 	scans: number;
 }
 
-// Genuine class name and its h₀, v₀ per model version: an artefact never changes, so they are read once.
-const genuineOf = new Map<number, { name: string; h0: number; v0: number } | null>();
+// Genuine class name and its h₀, v₀ per model version: an artefact never changes (a rebuild is a new version), so
+// nothing invalidates an entry; bounded to the 256 most recently used versions. Wrapped because LRUCache holds no null.
+const genuineOf = new LRUCache<number, { model: { name: string; h0: number; v0: number } | null }>({ max: 256 });
 async function genuineModel(versionId: number, tx?: Transaction) {
-	if (genuineOf.has(versionId)) return genuineOf.get(versionId)!;
+	const hit = genuineOf.get(versionId);
+	if (hit) return hit.model;
 	const [r] = await sequelize().query<{ name: string | null; h0: string | null; v0: string | null }>(
 		`SELECT artefact->>'genuine' AS name, artefact->'models'->(artefact->>'genuine')->>'h0' AS h0, artefact->'models'->(artefact->>'genuine')->>'v0' AS v0
 		   FROM model_versions WHERE id = :versionId`,
 		{ replacements: { versionId }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	const g = r?.name ? { name: r.name, h0: Number(r.h0), v0: Number(r.v0) } : null;
-	genuineOf.set(versionId, g);
+	genuineOf.set(versionId, { model: g });
 	return g;
 }
 

@@ -1,7 +1,8 @@
 import { can } from '../../permissions';
 import { z } from 'zod';
 import { nameText, proseText } from '../../validation/text';
-import { models, transaction } from '../db';
+import { QueryTypes } from 'sequelize';
+import { models, sequelize, transaction } from '../db';
 import type { Material, MaterialClass } from '../db/models';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
@@ -100,6 +101,21 @@ export async function get(idOrCode: number | string) {
 export async function list() {
 	const rows = await models().Material.findAll({ order: [['code', 'ASC']] });
 	return rows.map(toPublic);
+}
+
+/** The materials list with, per material, its library size, approved version number and open builds and drafts. */
+export async function listWithCounts() {
+	const rows = await list();
+	const stats = await sequelize().query<{ material_id: number; library: string; approved: number | null; drafts: string }>(
+		`SELECT m.id AS material_id,
+		        (SELECT count(*) FROM library_entries e WHERE e.material_id = m.id) AS library,
+		        (SELECT version FROM model_versions v WHERE v.material_id = m.id AND v.state = 'approved') AS approved,
+		        (SELECT count(*) FROM model_versions v WHERE v.material_id = m.id AND v.state IN ('draft','building')) AS drafts
+		   FROM materials m`,
+		{ type: QueryTypes.SELECT }
+	);
+	const byId = new Map(stats.map((s) => [s.material_id, s]));
+	return rows.map((m) => ({ ...m, library: Number(byId.get(m.id)?.library ?? 0), approved: byId.get(m.id)?.approved ?? null, drafts: Number(byId.get(m.id)?.drafts ?? 0) }));
 }
 
 export async function classes(materialId: number) {

@@ -1,6 +1,7 @@
 // Spectral quality gates for a lot scan: the thresholds of the material (overrides) and the instrument (ordinate
 // ceiling), the material's library reference for the no-sample gate, and the pure gates in
 // $lib/analysis/quality-gates. Called by the scan workflow before any model is applied (docs/methods.md §22).
+import { LRUCache } from 'lru-cache';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { runGates, type GateOutcome, type GateThresholds, type Technique } from '../../analysis/quality-gates';
@@ -13,8 +14,9 @@ import * as audit from './audit';
 import { forbidden, notFound } from './errors';
 
 // The library reference changes only when the library does: cached per material, keyed by its training entry count
-// and newest entry id.
-const libraryCache = new Map<number, { key: string; range: number | null }>();
+// and newest entry id, so adding or removing a training entry invalidates it (the key is re-read on every call).
+// Bounded to the 256 most recently used materials.
+const libraryCache = new LRUCache<number, { key: string; range: number | null }>({ max: 256 });
 
 async function libraryRange(materialId: number, tx?: Transaction): Promise<number | null> {
 	const [k] = await sequelize().query<{ n: string; last: number | null }>(

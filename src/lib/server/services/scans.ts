@@ -2,6 +2,7 @@
 import { can } from '../../permissions';
 // model version, keep the verdict with its full statistics, and recompute the lot status — one transaction per scan.
 import { createHash } from 'node:crypto';
+import { LRUCache } from 'lru-cache';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { prepareArtefact, screen, type PreparedArtefact, type ScreenResult } from '../../analysis';
@@ -47,8 +48,9 @@ interface ApprovedModel {
 	sha256: string;
 	prep: PreparedArtefact;
 }
-// Prepared artefacts by version id: an approved artefact never changes, so its typed arrays are built once.
-const preparedCache = new Map<number, ApprovedModel>();
+// Prepared artefacts by version id: a built artefact never changes (a rebuild is a new version), so nothing
+// invalidates an entry; bounded to the 32 most recently used versions because each holds the model's typed arrays.
+const preparedCache = new LRUCache<number, ApprovedModel>({ max: 32 });
 
 /** A model version prepared for screening, cached by id (a built artefact never changes). */
 export async function preparedVersion(versionId: number): Promise<ApprovedModel | null> {

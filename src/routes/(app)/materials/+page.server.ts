@@ -2,11 +2,9 @@ import { can } from '$lib/permissions';
 import { fail, redirect } from '@sveltejs/kit';
 import { superValidate } from 'sveltekit-superforms';
 import { zod } from 'sveltekit-superforms/adapters';
-import { QueryTypes } from 'sequelize';
 import { emailListField, splitList } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
-import { sequelize } from '$lib/server/db';
 import * as materials from '$lib/server/services/materials';
 import { refuse } from './service-errors.server';
 import type { Actions, PageServerLoad } from './$types';
@@ -17,18 +15,8 @@ const createSchema = materials.materialSchema.omit({ recipients: true }).extend(
 
 export const load = (async (event) => {
 	const actor = requireUser(event);
-	const rows = await materials.list();
-	const stats = await sequelize().query<{ material_id: number; library: string; approved: number | null; drafts: string }>(
-		`SELECT m.id AS material_id,
-		        (SELECT count(*) FROM library_entries e WHERE e.material_id = m.id) AS library,
-		        (SELECT version FROM model_versions v WHERE v.material_id = m.id AND v.state = 'approved') AS approved,
-		        (SELECT count(*) FROM model_versions v WHERE v.material_id = m.id AND v.state IN ('draft','building')) AS drafts
-		   FROM materials m`,
-		{ type: QueryTypes.SELECT }
-	);
-	const byId = new Map(stats.map((s) => [s.material_id, s]));
 	return {
-		rows: rows.map((m) => ({ ...m, library: Number(byId.get(m.id)?.library ?? 0), approved: byId.get(m.id)?.approved ?? null, drafts: Number(byId.get(m.id)?.drafts ?? 0) })),
+		rows: await materials.listWithCounts(),
 		canManage: hasRole(actor, can.manageMaterials),
 		form: await superValidate(zod(createSchema))
 	};

@@ -12,7 +12,7 @@ import * as library from '../library';
 import * as materials from '../materials';
 import { enqueue } from '../../jobs/boss';
 import { QUEUES } from '../../jobs/queues';
-import { evidence } from './evidence';
+import { modelEvidence } from '../../../analysis/model-evidence';
 import { row, memberships } from './read';
 import { type ExclusionCategory, minimumFor, buildParamsSchema, type BuildParams, type BuildParamsInput } from './schema';
 import { type Pending, type Progress, type MembershipRow } from './types';
@@ -233,7 +233,9 @@ export async function runBuild(versionId: number): Promise<void> {
 		writeProgress({ stage: 'validating', message: 'Screening test and challenge spectra', percent: 96 }, true);
 		const text = serializeArtefact(artefact);
 		const sha = createHash('sha256').update(text).digest('hex');
-		const { figures, validation } = evidence(everything, artefact, members, classes, started);
+		const evidence = modelEvidence(everything, artefact, members, classes);
+		const figures = { ...evidence.figures, buildMs: Math.round(performance.now() - started) };
+		const validation = evidence.validation;
 		await pendingWrite;
 		await transaction(async (tx) => {
 			await sequelize().query(

@@ -1,6 +1,8 @@
 // Model versions: the stored row and the figures, projections and validation kept with it.
-import { type ModelArtefact, type ValidationReport } from '../../../analysis';
+import { type ModelArtefact } from '../../../analysis';
 import * as acceptance from '../acceptance';
+import type { Figures, Validation } from '../../../analysis/model-evidence';
+export type { ModelFigure, Figures, Projection, Validation } from '../../../analysis/model-evidence';
 import { type ExclusionCategory, type BuildParams } from './schema';
 
 export interface Pending {
@@ -51,54 +53,9 @@ export interface Progress {
 	at?: string;
 }
 
-export interface ModelFigure {
-	name: string;
-	kind: 'family' | 'genuine' | 'suspect';
-	n: number;
-	components: number;
-	componentsRule: 'auto' | 'fixed';
-	suggested: number;
-	alpha: number;
-	cCrit: number;
-	cvFalseRejectRate: number;
-	trainingFalseRejectRate: number;
-	/** CV false-reject rate at other α, from the cross-validated c of the training objects. */
-	frrByAlpha: { alpha: number; cv: number; training: number }[];
-	explained: number;
-	/** Engine guards: A at the cap, N_h or N_q below 3 (issue 12 §4). */
-	warnings?: string[];
-	parsimonious?: number | null;
-}
 
-export interface Figures {
-	trainingCount: number;
-	excludedCount: number;
-	classes: { name: string; kind: 'genuine' | 'suspect'; n: number }[];
-	models: ModelFigure[];
-	/** Every library spectrum of the material (training, test, challenge) screened through this version: id → stats. */
-	projections: Record<string, Projection>;
-	/** Every library spectrum resampled onto every k-th point of the model axis (about 150 points), for overview plots. */
-	overview: { axis: number[]; spectra: Record<string, number[]> };
-	buildMs: number;
-}
 
-export interface Projection {
-	role: string;
-	label: string;
-	verdict: string;
-	profile: string | null;
-	/** model name ('family' for stage 1) → distances */
-	models: Record<string, { h: number; v: number; c: number; accepted: boolean; scores?: number[] }>;
-}
 
-export interface Validation {
-	tested: number;
-	testCount: number;
-	challengeCount: number;
-	/** engine's evaluate() result without the per-spectrum results: confusion K×(K+2), per-class metrics with Clopper–Pearson 95 % intervals */
-	report: Omit<ValidationReport, 'results'> | null;
-	verdicts: { entryId: number; label: string; role: string; verdict: string; profile: string | null; reason: string | null }[];
-}
 
 export interface MembershipRow {
 	entryId: number;

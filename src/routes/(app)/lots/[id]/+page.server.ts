@@ -7,7 +7,7 @@ import * as drift from '$lib/server/services/drift';
 import * as instruments from '$lib/server/services/instruments';
 import * as scans from '$lib/server/services/scans';
 import { SCREENING_CAUTION } from '$lib/caution';
-import { lotPageData } from './evidence.server';
+import { lotPageData } from '$lib/server/services/lot-evidence';
 import { cosignAction, disposeAction, dispositionPanelData } from './disposition.server';
 import { decideAction, invalidationPageData, proposeAction } from './invalidation.server';
 import type { Actions, PageServerLoad } from './$types';

@@ -1,14 +1,20 @@
 // The lot page's evidence, shaped for the browser: the screening model's training cloud and limits, the lot's scans
 // in the same coordinates, decimated spectra on the model axis, and a library background for the Coomans plot.
+import { LRUCache } from 'lru-cache';
 import { QueryTypes } from 'sequelize';
-import { resampleOnto, type ModelArtefact, type ModelJson } from '../../../../lib/analysis';
-import { sequelize } from '../../../../lib/server/db';
-import * as lots from '../../../../lib/server/services/lots';
-import * as scans from '../../../../lib/server/services/scans';
+import { resampleOnto, type ModelArtefact, type ModelJson } from '../../analysis';
+import { sequelize } from '../db';
+import * as lots from './lots';
+import * as scans from './scans';
 
 const MAX_PLOT_POINTS = 200;
 
-const figuresCache = new Map<number, Record<string, { label: string; role: string; models: Record<string, { c: number }> }>>();
+type SlimProjections = Record<string, { label: string; role: string; models: Record<string, { c: number }> }>;
+// The library's projections through a version (c per model), by version id. Nothing invalidates an entry: a version's
+// figures are written once, when its build finishes, and never change; a version still building has none and is not
+// cached (the lot page only asks for versions that screened a scan). Bounded so a long-running server keeps at most
+// the 64 most recently viewed versions.
+const figuresCache = new LRUCache<number, SlimProjections>({ max: 64 });
 
 async function libraryProjections(versionId: number) {
 	const hit = figuresCache.get(versionId);
@@ -17,7 +23,8 @@ async function libraryProjections(versionId: number) {
 		"SELECT figures->'projections' AS p FROM model_versions WHERE id = :versionId",
 		{ replacements: { versionId }, type: QueryTypes.SELECT }
 	);
-	const p = rows[0]?.p ?? {};
+	if (!rows[0]?.p) return {};
+	const p = rows[0].p;
 	// Keep only c per model: all the Coomans background needs.
 	const slim = Object.fromEntries(
 		Object.entries(p).map(([id, v]) => [id, { label: v.label, role: v.role, models: Object.fromEntries(Object.entries(v.models ?? {}).map(([k, m]) => [k, { c: m.c }])) }])
