@@ -70,6 +70,17 @@ export const NIR = {
 		{ center: 2312, fwhm: 18, height: 0.1 },
 		{ center: 2390, fwhm: 22, height: 0.08 }
 	],
+	/**
+	 * A fine, weakly absorbing talc grade (the demo lot's unseen adulterant): the same Mg–OH positions at a tenth of
+	 * the height. At 25 % it shows mostly as diluted lactose bands against an unchanged baseline, which the family
+	 * model still accepts while every class model rejects it (`unknown`).
+	 */
+	talcFine: [
+		{ center: 1392, fwhm: 12, height: 0.012 },
+		{ center: 2080, fwhm: 40, height: 0.002 },
+		{ center: 2312, fwhm: 18, height: 0.01 },
+		{ center: 2390, fwhm: 22, height: 0.008 }
+	],
 	cellulose: [
 		{ center: 1210, fwhm: 50, height: 0.05 },
 		{ center: 1490, fwhm: 80, height: 0.12 },

@@ -119,7 +119,7 @@ function uniformAxis(from: number, to: number, step: number): Float64Array {
 }
 
 // What a sample is made of; each kind maps to a band recipe below.
-export type Kind = 'lactose' | 'lactose-site-b' | 'lactose-anhydrous' | 'lactose-starch' | 'lactose-talc' | 'mcc' | 'powdered-cellulose' | 'citric-anhydrous' | 'citric-monohydrate';
+export type Kind = 'lactose' | 'lactose-site-b' | 'lactose-anhydrous' | 'lactose-starch' | 'lactose-talc' | 'lactose-talc-fine' | 'mcc' | 'powdered-cellulose' | 'citric-anhydrous' | 'citric-monohydrate';
 
 /** Physical state shared by a supplier lot (particle size, moisture, ...), varied a little per sample. */
 interface State {
@@ -194,6 +194,10 @@ function nirPure(kind: Kind, axis: Float64Array, s: State, shift: number): Float
 		case 'lactose-talc':
 			lactose(0.75);
 			addBands(out, axis, NIR.talc, 0.25, shift, s.width);
+			break;
+		case 'lactose-talc-fine':
+			lactose(0.75);
+			addBands(out, axis, NIR.talcFine, 0.25, shift, s.width);
 			break;
 		case 'mcc':
 			addBands(out, axis, NIR.cellulose, 1, shift, s.width);
@@ -375,8 +379,8 @@ const LOT_SCANS: LotScanSpec[] = [
 		material: 'LAC-200',
 		supplier: 'ZEPHYRA',
 		instrument: 'NIR-DOCK-1',
-		description: 'Container 2 cut with about 25 % talc (an adulterant no model has seen)',
-		containers: ['lactose', 'lactose-talc', 'lactose', 'lactose', 'lactose'],
+		description: 'Container 2 cut with about 25 % of a fine, weakly absorbing talc (an adulterant no model has seen)',
+		containers: ['lactose', 'lactose-talc-fine', 'lactose', 'lactose', 'lactose'],
 		truth: ['genuine', 'talc-cut', 'genuine', 'genuine', 'genuine'],
 		encoding: 'AFFN',
 		date: [2025, 3, 6, 10, 0]

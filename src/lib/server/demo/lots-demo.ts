@@ -1,5 +1,5 @@
 // Demo step of the lot workflow: the technician receives the demo deliveries and uploads their container scans, so
-// the demo shows every verdict (genuine, suspect, not this material, unusable). Idempotent: a lot already received
+// the demo shows every verdict (genuine, suspect, unknown, not this material, unusable). Idempotent: a lot already received
 // is left as it is, except that scans stored while no model was approved are screened once one is.
 import { QueryTypes } from 'sequelize';
 import { demoScenario } from '../../demo';

@@ -1,0 +1,56 @@
+// The demo shows every verdict (issue 17, "The demo should show every verdict"): seed the demo as `npm start` does and
+// read back what the seven demo lots' scans were given. Invented demo data: this checks the demo, not any method.
+import { QueryTypes } from 'sequelize';
+import { beforeAll, describe, expect, it } from 'vitest';
+
+let rows: { lot_key: string; container: number; verdict: string }[] = [];
+let artefacts: { code: string; artefact: string | object }[] = [];
+
+beforeAll(async () => {
+	const { sequelize } = await import('../../src/lib/server/db/index');
+	await (await import('../../src/lib/server/demo/seed')).seedDemo(() => {});
+	const lots = (await import('../../src/lib/demo')).demoScenario().lots;
+	const q = <T extends object>(sql: string, replacements: Record<string, unknown> = {}) => sequelize().query<T>(sql, { replacements, type: QueryTypes.SELECT });
+	for (const spec of lots) {
+		const found = await q<{ container: number; verdict: string }>(
+			`SELECT sc.container, sc.verdict FROM scans sc JOIN lots l ON l.id = sc.lot_id JOIN materials m ON m.id = l.material_id JOIN suppliers s ON s.id = l.supplier_id
+			  WHERE m.code = :material AND s.code = :supplier AND l.supplier_lot = :supplierLot ORDER BY sc.container, sc.id`,
+			{ material: spec.material, supplier: spec.supplier, supplierLot: spec.supplierLot }
+		);
+		rows.push(...found.map((r) => ({ lot_key: spec.lotKey, container: Number(r.container), verdict: r.verdict })));
+	}
+	artefacts = await q<{ code: string; artefact: string | object }>(
+		"SELECT m.code, v.artefact FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE v.state = 'approved' AND v.version = 1 ORDER BY m.code"
+	);
+}, 300_000);
+
+describe('the seeded demo', () => {
+	it('has a scan for every container of the seven demo lots', () => {
+		expect(new Set(rows.map((r) => r.lot_key)).size).toBe(7);
+		expect(rows).toHaveLength(33);
+	});
+
+	it('shows every verdict at least once across the seven lots', () => {
+		const seen = new Set(rows.map((r) => r.verdict));
+		for (const v of ['genuine', 'suspect', 'unknown', 'not-this-material', 'unusable']) expect(seen, `verdict ${v}`).toContain(v);
+	});
+
+	it('the unseen adulterant (25 % talc in lactose) reads unknown; the wrong material stays not this material', () => {
+		expect(rows.find((r) => r.lot_key === 'lac-talc' && r.container === 2)?.verdict).toBe('unknown');
+		expect(rows.filter((r) => r.lot_key === 'lac-talc' && r.container !== 2).map((r) => r.verdict)).toEqual(Array(4).fill('genuine'));
+		expect(rows.filter((r) => r.lot_key === 'lac-wrong').map((r) => r.verdict)).toEqual(Array(3).fill('not-this-material'));
+		expect(rows.find((r) => r.lot_key === 'lac-diluted' && r.container === 4)?.verdict).toBe('suspect');
+		expect(rows.find((r) => r.lot_key === 'lac-corrupt' && r.container === 2)?.verdict).toBe('unusable');
+	});
+
+	it("v1 of every demo material does not sit at the component cap, and carries no cap warning", () => {
+		expect(artefacts.map((a) => a.code)).toEqual(['CIT-ANH', 'LAC-200', 'MCC-100']);
+		for (const { code, artefact } of artefacts) {
+			const a = (typeof artefact === 'string' ? JSON.parse(artefact) : artefact) as { family: { components: number; maxComponents: number; warnings?: string[] }; models: Record<string, { components: number; maxComponents: number; warnings?: string[] }> };
+			for (const [name, m] of [['family', a.family] as const, ...Object.entries(a.models)]) {
+				expect(m.components, `${code} ${name}`).toBeLessThan(m.maxComponents);
+				expect((m.warnings ?? []).join(' '), `${code} ${name}`).not.toMatch(/equals the cap/);
+			}
+		}
+	});
+});
