@@ -66,67 +66,123 @@ export function parseCsv(text: string, file: string, options: ParseOptions = {})
 	const delimiter = guess.errors.some((e) => e.code === 'UndetectableDelimiter') ? null : guess.meta.delimiter;
 	if (delimiter === null)
 		throw new SpectrumFileError('csv-shape', file, 'no column delimiter found; expected x,y columns or one spectrum per row, separated by commas, semicolons or tabs', 1);
-	// Blank lines kept here so that row i is line i + 1 (spectral exports do not quote line breaks).
-	const parsed = Papa.parse<string[]>(text, { header: false, skipEmptyLines: false, dynamicTyping: false, delimiter });
-	const quoteError = parsed.errors.find((e) => e.type === 'Quotes');
-	if (quoteError) throw new SpectrumFileError('csv-shape', file, `a quoted field is not closed (${quoteError.message})`, (quoteError.row ?? 0) + 1);
+	// Rows arrive one at a time (papaparse's step mode), so a large x,y file is never held as an array of string rows:
+	// its numbers go straight into typed arrays. Blank rows are counted, so that row i is line i + 1 (spectral exports
+	// do not quote line breaks). A matrix (one spectrum per row, few rows) keeps its rows.
 	const decimalComma = delimiter !== ',';
+	let lineNo = 0;
+	let cols = 0;
+	let header: string[] = [];
+	let firstLine = 0;
+	let xy: XyCollector | null = null;
 	const rows: Row[] = [];
-	parsed.data.forEach((cells, i) => {
-		if (!cells.every((c) => c.trim() === '')) rows.push({ cells, line: i + 1 });
-	});
-	if (rows.length === 0) throw new SpectrumFileError('empty', file, 'the file contains no rows');
-	const width = (r: Row) => {
-		let n = r.cells.length;
-		while (n > 1 && r.cells[n - 1].trim() === '') n--; // a trailing delimiter is harmless
+	let failure: unknown = null;
+	const width = (cells: string[]) => {
+		let n = cells.length;
+		while (n > 1 && cells[n - 1].trim() === '') n--; // a trailing delimiter is harmless
 		return n;
 	};
-	const cols = width(rows[0]);
-	if (cols < 2)
-		throw new SpectrumFileError('csv-shape', file, 'the first line has a single column; expected x,y columns or one spectrum per row separated by commas, semicolons or tabs', rows[0].line);
-	const header = rows[0].cells.slice(0, cols).map((c) => c.trim());
-	for (const r of rows) {
-		const w = width(r);
-		if (w > cols || r.cells.length < cols)
-			throw new SpectrumFileError('csv-shape', file, `the line has ${w} columns but the first line has ${cols}`, r.line);
+	Papa.parse<string[]>(text, {
+		header: false,
+		skipEmptyLines: false,
+		dynamicTyping: false,
+		delimiter,
+		step: (result, parser) => {
+			lineNo++;
+			try {
+				const quoteError = result.errors.find((e) => e.type === 'Quotes');
+				if (quoteError) throw new SpectrumFileError('csv-shape', file, `a quoted field is not closed (${quoteError.message})`, lineNo);
+				const cells = result.data;
+				if (cells.every((c) => c.trim() === '')) return;
+				if (!cols) {
+					cols = width(cells);
+					firstLine = lineNo;
+					if (cols < 2)
+						throw new SpectrumFileError('csv-shape', file, 'the first line has a single column; expected x,y columns or one spectrum per row separated by commas, semicolons or tabs', lineNo);
+					header = cells.slice(0, cols).map((c) => c.trim());
+					if (cols === 2) {
+						xy = new XyCollector(file, decimalComma, cellOf(header[0], decimalComma).kind !== 'number');
+						if (!xy.hasHeader) xy.add(cells, lineNo);
+					} else rows.push({ cells, line: lineNo });
+					return;
+				}
+				const w = width(cells);
+				if (w > cols || cells.length < cols) throw new SpectrumFileError('csv-shape', file, `the line has ${w} columns but the first line has ${cols}`, lineNo);
+				if (xy) xy.add(cells, lineNo);
+				else rows.push({ cells, line: lineNo });
+			} catch (e) {
+				failure = e;
+				parser.abort();
+			}
+		}
+	});
+	if (failure) throw failure;
+	if (!cols) throw new SpectrumFileError('empty', file, 'the file contains no rows');
+	const o = { allowGaps, minPoints, unit: options.unit };
+	return xy ? (xy as XyCollector).finish(header, firstLine, o) : matrixFile(rows, header, file, decimalComma, o);
+}
+
+/** The points of an x,y file, collected row by row into growing typed arrays (with each point's line number). */
+class XyCollector {
+	axis = new Float64Array(1024);
+	values = new Float64Array(1024);
+	lines = new Int32Array(1024);
+	n = 0;
+	constructor(
+		readonly file: string,
+		readonly decimalComma: boolean,
+		readonly hasHeader: boolean
+	) {}
+
+	add(cells: string[], line: number) {
+		const { file, decimalComma } = this;
+		const x = cellOf(cells[0], decimalComma);
+		if (x.kind === 'text') throw new SpectrumFileError('bad-number', file, `the x value "${cells[0].trim().slice(0, 30)}" is not a number`, line);
+		if (x.kind === 'gap') throw new SpectrumFileError('non-finite', file, `the x value "${cells[0].trim()}" is missing; every point needs its wavelength or wavenumber`, line);
+		const y = cellOf(cells[1], decimalComma);
+		if (y.kind === 'text') throw new SpectrumFileError('bad-number', file, `the y value "${cells[1].trim().slice(0, 30)}" is not a number`, line);
+		if (this.n === this.axis.length) {
+			const grow = <T extends Float64Array | Int32Array>(a: T): T => {
+				const b = new (a.constructor as new (n: number) => T)(a.length * 2);
+				b.set(a);
+				return b;
+			};
+			this.axis = grow(this.axis);
+			this.values = grow(this.values);
+			this.lines = grow(this.lines);
+		}
+		this.axis[this.n] = x.value;
+		this.values[this.n] = y.kind === 'number' ? y.value : Number.NaN;
+		this.lines[this.n] = line;
+		this.n++;
 	}
-	return cols === 2 ? xyFile(rows, header, file, decimalComma, { allowGaps, minPoints, unit: options.unit }) : matrixFile(rows, header, file, decimalComma, { allowGaps, minPoints, unit: options.unit });
+
+	finish(header: string[], headerLine: number, o: Opts): ParsedFile {
+		const { file, hasHeader, n } = this;
+		const axis = this.axis.slice(0, n);
+		const values = this.values.slice(0, n);
+		const lines = this.lines;
+		const lineOf = (i: number) => (i < n ? lines[i] : undefined);
+		const missing = checkSpectrum(axis, values, { file, allowGaps: o.allowGaps, minPoints: o.minPoints, lineOf });
+		const unit = (hasHeader ? unitHint(header[0]) : null) ?? o.unit ?? unitByRange(axis, file, hasHeader ? headerLine : undefined);
+		const spectrum: ParsedSpectrum = {
+			id: null,
+			axis,
+			values,
+			unit,
+			yUnit: hasHeader && header[1] !== '' ? header[1] : null,
+			title: null,
+			meta: {},
+			acquiredAt: null,
+			technique: null,
+			missing,
+			line: n ? lines[0] : undefined
+		};
+		return { format: 'csv-xy', fileName: file, spectra: [spectrum] };
+	}
 }
 
 type Opts = { allowGaps: boolean; minPoints: number; unit?: AxisUnit };
-
-function xyFile(rows: Row[], header: string[], file: string, decimalComma: boolean, o: Opts): ParsedFile {
-	const hasHeader = cellOf(header[0], decimalComma).kind !== 'number';
-	const data = hasHeader ? rows.slice(1) : rows;
-	const axis = new Float64Array(data.length);
-	const values = new Float64Array(data.length);
-	data.forEach((r, i) => {
-		const x = cellOf(r.cells[0], decimalComma);
-		if (x.kind === 'text') throw new SpectrumFileError('bad-number', file, `the x value "${r.cells[0].trim().slice(0, 30)}" is not a number`, r.line);
-		if (x.kind === 'gap') throw new SpectrumFileError('non-finite', file, `the x value "${r.cells[0].trim()}" is missing; every point needs its wavelength or wavenumber`, r.line);
-		const y = cellOf(r.cells[1], decimalComma);
-		if (y.kind === 'text') throw new SpectrumFileError('bad-number', file, `the y value "${r.cells[1].trim().slice(0, 30)}" is not a number`, r.line);
-		axis[i] = x.value;
-		values[i] = y.kind === 'number' ? y.value : Number.NaN;
-	});
-	const lineOf = (i: number) => data[i]?.line;
-	const missing = checkSpectrum(axis, values, { file, allowGaps: o.allowGaps, minPoints: o.minPoints, lineOf });
-	const unit = (hasHeader ? unitHint(header[0]) : null) ?? o.unit ?? unitByRange(axis, file, hasHeader ? rows[0].line : undefined);
-	const spectrum: ParsedSpectrum = {
-		id: null,
-		axis,
-		values,
-		unit,
-		yUnit: hasHeader && header[1] !== '' ? header[1] : null,
-		title: null,
-		meta: {},
-		acquiredAt: null,
-		technique: null,
-		missing,
-		line: data[0]?.line
-	};
-	return { format: 'csv-xy', fileName: file, spectra: [spectrum] };
-}
 
 function matrixFile(rows: Row[], header: string[], file: string, decimalComma: boolean, o: Opts): ParsedFile {
 	const headerLine = rows[0].line;

@@ -16,6 +16,8 @@ export interface OriginInput {
 	supplierLot: string;
 	container: number;
 	bytes: Uint8Array;
+	/** SHA-256 of `bytes` when already computed. */
+	sha256?: string;
 	fileName: string;
 	/** An admin's reason to store bytes that already exist elsewhere (a documented case). */
 	duplicateOverrideReason?: string | null;
@@ -69,7 +71,7 @@ export async function storedElsewhere(tx: Transaction | undefined, sha256: strin
  */
 export async function check(tx: Transaction, actor: Actor, input: OriginInput): Promise<OriginRecord> {
 	const record: OriginRecord = { duplicateOverride: null, headerConfirmation: null };
-	const sha256 = createHash('sha256').update(input.bytes).digest('hex');
+	const sha256 = input.sha256 ?? createHash('sha256').update(input.bytes).digest('hex');
 	const elsewhere = await storedElsewhere(tx, sha256, input.lotId);
 	if (elsewhere.length) {
 		const mayOverride = hasRole(actor, can.overrideDuplicateEvidence);

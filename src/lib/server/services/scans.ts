@@ -27,6 +27,8 @@ export { isClosed };
 
 export interface ScanFile {
 	bytes: Uint8Array;
+	/** SHA-256 of `bytes` when already computed (the streamed upload hashes while reading). */
+	sha256?: string;
 	fileName: string;
 	container: number | string;
 	/** For a session upload: which instrument measured it (an instrument token sets it itself). */
@@ -112,7 +114,7 @@ async function instrumentOf(id: number | null | undefined, tx: Transaction): Pro
 
 /** A file that does not parse is still kept byte for byte as the scan's evidence, with no points. */
 async function storeUnparsed(tx: Transaction, actor: Actor, lotId: number, file: ScanFile, instrument: InstrumentRow | null, fallbackUnit: 'nm' | 'cm-1' | 'um', reason: string, format: 'unparsed' | 'refused') {
-	const sha256 = createHash('sha256').update(file.bytes).digest('hex');
+	const sha256 = file.sha256 ?? createHash('sha256').update(file.bytes).digest('hex');
 	const dup = await sequelize().query<{ id: number }>("SELECT id FROM spectra WHERE context = 'lot' AND context_id = :lotId AND sha256 = :sha256 LIMIT 1", {
 		replacements: { lotId, sha256 },
 		type: QueryTypes.SELECT,
@@ -125,7 +127,7 @@ async function storeUnparsed(tx: Transaction, actor: Actor, lotId: number, file:
 		{
 			replacements: {
 				sha256,
-				raw: Buffer.from(file.bytes),
+				raw: Buffer.from(file.bytes.buffer, file.bytes.byteOffset, file.bytes.byteLength), // the same memory, no copy
 				fileName: file.fileName,
 				unit: instrument?.axis_unit ?? fallbackUnit,
 				format,
@@ -161,7 +163,7 @@ const PARSE_CODES = new Set([
 async function ingestForScan(tx: Transaction, actor: Actor, lotId: number, file: ScanFile, instrument: InstrumentRow | null): Promise<Ingested> {
 	let stored: intake.StoredSpectrum[];
 	try {
-		stored = await intake.ingestFile(actor, { bytes: file.bytes, fileName: file.fileName, instrumentId: instrument?.id ?? null, context: 'lot', contextId: lotId, allowGaps: true }, tx);
+		stored = await intake.ingestFile(actor, { bytes: file.bytes, sha256: file.sha256, fileName: file.fileName, instrumentId: instrument?.id ?? null, context: 'lot', contextId: lotId, allowGaps: true }, tx);
 	} catch (e) {
 		if (e instanceof intake.IntakeError && PARSE_CODES.has(e.code)) return { ok: false, reason: e.message, format: 'unparsed' };
 		if (e instanceof intake.IntakeError && e.code === 'wrong-technique') return { ok: false, reason: `wrong technique: ${e.message}`, format: 'refused' };
@@ -213,6 +215,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 			supplierLot: lot.supplier_lot,
 			container,
 			bytes: file.bytes,
+			sha256: file.sha256,
 			fileName: file.fileName,
 			duplicateOverrideReason: file.duplicateOverrideReason,
 			headerConfirmation: file.headerConfirmation

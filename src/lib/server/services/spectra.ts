@@ -56,6 +56,8 @@ const MEDIA_CODES = new Set(['empty', 'binary', 'unknown-format']);
 
 export interface IngestInput {
 	bytes: Uint8Array;
+	/** SHA-256 of `bytes` when already computed (the streamed upload hashes while reading). */
+	sha256?: string;
 	fileName: string;
 	/** For a session upload; an instrument token sets the instrument itself. */
 	instrumentId?: number | null;
@@ -213,7 +215,7 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 	}
 
 	const run = async (t: Transaction) => {
-		const sha256 = sha256Hex(input.bytes);
+		const sha256 = input.sha256 ?? sha256Hex(input.bytes);
 		const existing = await findDuplicate(t, input.context, contextId, sha256);
 		if (existing) throw duplicateError(fileName, input.context, contextId, existing);
 
@@ -310,6 +312,7 @@ export const ingestInTransaction = (tx: Transaction, actor: Actor, input: Ingest
 
 export interface BatchFile {
 	name: string;
+	sha256?: string;
 	/** Known before reading (multipart File.size), so an oversized file is refused without being read. */
 	size: number;
 	/** Read one file at a time, so a batch is not held in memory twice over. */
@@ -345,6 +348,7 @@ export async function ingestBatch(
 			if (f.size > maxFileBytes()) throw tooLarge(f.name, f.size);
 			const input = {
 				bytes: await f.read(),
+				sha256: f.sha256,
 				fileName: f.name,
 				instrumentId: instrument?.id ?? null,
 				context: options.context ?? 'loose',

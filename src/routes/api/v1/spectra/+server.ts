@@ -3,6 +3,7 @@ import { json } from '@sveltejs/kit';
 import { apiError, handler, requireActor } from '$lib/server/api';
 import { ServiceError } from '$lib/server/services/errors';
 import * as spectra from '$lib/server/services/spectra';
+import { readMultipart, tooLargeMessage } from '$lib/server/multipart';
 import type { RequestHandler } from './$types';
 
 /** Loose uploads (the intake page), newest first: ?page, pageSize, sort (id|file|format|points|instrument|uploader|created[:asc|desc]), q. */
@@ -49,22 +50,24 @@ export const POST: RequestHandler = handler(async (event) => {
 	if (length > spectra.maxBatchBytes()) {
 		return apiError(413, 'too-large', `The upload is ${(length / 1048576).toFixed(1)} MB; one request may carry at most ${spectra.maxBatchBytes() / 1048576} MB`);
 	}
-	let form: FormData;
-	try {
-		form = await event.request.formData();
-	} catch (e) {
-		// adapter-node refuses a body over BODY_SIZE_LIMIT while it streams in.
-		if (e instanceof Error && /exceeds limit|too large/i.test(e.message)) return apiError(413, 'too-large', 'The upload is larger than this server accepts');
-		return apiError(400, 'bad-multipart', 'The multipart body could not be read');
-	}
-	const files = form.getAll('file').filter((f): f is File => typeof f === 'object' && f !== null && 'arrayBuffer' in f);
+	// Streamed: per-file and file-count limits apply while the bytes arrive; each file is hashed on the way in.
+	const form = await readMultipart(event.request, { fileBytes: spectra.maxFileBytes(), files: spectra.maxBatchFiles(), oversize: 'mark' });
+	const files = form.files.filter((f) => f.field === 'file');
 	if (!files.length) throw new ServiceError(400, 'no-file', 'The field "file" with one or more spectrum files is missing', 'file');
-	const instrument = form.get('instrument');
-	const allowGaps = form.get('allowGaps');
+	const instrument = form.field('instrument');
+	const allowGaps = form.field('allowGaps');
 	const items = await spectra.ingestBatch(
 		actor,
-		files.map((f) => ({ name: f.name || 'upload', size: f.size, read: async () => new Uint8Array(await f.arrayBuffer()) })),
-		{ instrument: typeof instrument === 'string' && instrument.trim() ? instrument.trim() : null, allowGaps: allowGaps === 'true' || allowGaps === '1' }
+		files.map((f) => ({
+			name: f.name,
+			size: f.size,
+			sha256: f.sha256,
+			read: () => {
+				if (f.tooLarge) throw new spectra.IntakeError(413, 'too-large', tooLargeMessage(f.name, spectra.maxFileBytes()), f.name);
+				return f.bytes;
+			}
+		})),
+		{ instrument: instrument?.trim() ? instrument.trim() : null, allowGaps: allowGaps === 'true' || allowGaps === '1' }
 	);
 	const stored = items.filter((i) => i.ok).length;
 	const body = { stored, refused: items.length - stored, files: items.map(itemJson) };

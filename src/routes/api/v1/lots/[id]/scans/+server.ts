@@ -4,9 +4,9 @@ import { handler, requireActor } from '$lib/server/api';
 import { invalid, ServiceError } from '$lib/server/services/errors';
 import * as lots from '$lib/server/services/lots';
 import * as scans from '$lib/server/services/scans';
+import { maxFileBytes } from '$lib/server/services/spectra';
+import { readMultipart } from '$lib/server/multipart';
 import type { RequestHandler } from './$types';
-
-const MAX_BYTES = 20 * 1024 * 1024;
 
 /** Every scan of the lot, with verdict and statistics (the same list GET /api/v1/lots/{id} holds). */
 export const GET: RequestHandler = handler(async (event) => {
@@ -28,25 +28,22 @@ export const POST: RequestHandler = handler(async (event) => {
 	const type = event.request.headers.get('content-type') ?? '';
 	if (!type.toLowerCase().startsWith('multipart/form-data')) throw new ServiceError(415, 'unsupported-media-type', 'Send multipart/form-data with the fields file and container');
 	const length = Number(event.request.headers.get('content-length') ?? 0);
-	if (length > MAX_BYTES) throw new ServiceError(413, 'too-large', `The upload is larger than ${MAX_BYTES / 1024 / 1024} MB`);
-	let form: FormData;
-	try {
-		form = await event.request.formData();
-	} catch {
-		throw invalid('The multipart body could not be read', 'file');
-	}
-	const file = form.get('file');
-	if (!(file instanceof File)) throw invalid('The field "file" with a spectrum file is missing', 'file');
-	const container = form.get('container');
+	if (length > maxFileBytes() + 64 * 1024) throw new ServiceError(413, 'too-large', `The upload is larger than ${maxFileBytes() / 1024 / 1024} MB`);
+	// Streamed: the file limit applies while the bytes arrive, and the file is hashed on the way in.
+	const form = await readMultipart(event.request, { fileBytes: maxFileBytes(), files: 1 });
+	const file = form.files.find((f) => f.field === 'file');
+	if (!file) throw invalid('The field "file" with a spectrum file is missing', 'file');
+	const container = form.field('container');
 	if (container == null || container === '') throw invalid('The field "container" (the container number) is missing', 'container');
-	const instrument = form.get('instrumentId');
+	const instrument = form.field('instrumentId');
 	const added = await scans.add(actor, event.params.id, {
-		bytes: new Uint8Array(await file.arrayBuffer()),
-		fileName: file.name || 'upload',
-		container: String(container),
+		bytes: file.bytes,
+		sha256: file.sha256,
+		fileName: file.name,
+		container,
 		instrumentId: instrument ? Number(instrument) : null,
-		duplicateOverrideReason: String(form.get('duplicateOverrideReason') ?? '') || null,
-		headerConfirmation: String(form.get('headerConfirmation') ?? '') || null
+		duplicateOverrideReason: form.field('duplicateOverrideReason') || null,
+		headerConfirmation: form.field('headerConfirmation') || null
 	});
 	return json(added, { status: 201 });
 });
