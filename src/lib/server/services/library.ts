@@ -11,7 +11,9 @@ import * as materials from './materials';
 import * as intake from './spectra';
 import { displayFileName } from '../../validation/text';
 
-export const ROLES = ['training', 'test', 'challenge'] as const;
+// `transfer`: genuine spectra measured on an instrument a version was not built on (issue 14 §3); they never train
+// and never enter the validation set: only a transfer check screens them (./transfers.ts).
+export const ROLES = ['training', 'test', 'challenge', 'transfer'] as const;
 export type LibraryRole = (typeof ROLES)[number];
 
 /** How an upload is labelled: per-row columns of a CSV matrix, or one label for every spectrum (JCAMP, x,y CSV). */
@@ -23,7 +25,7 @@ export const labellingSchema = z.object({
 	instrumentColumn: nameText(z.string().trim().max(60)).default('instrument'),
 	/** Label for spectra without a class column (e.g. JCAMP files): a class name, or an alien's label for challenge spectra. */
 	class: nameText(z.string().trim().toLowerCase().max(60)).optional(),
-	role: z.enum(ROLES, { errorMap: () => ({ message: 'Role is training, test or challenge' }) }).optional(),
+	role: z.enum(ROLES, { errorMap: () => ({ message: 'Role is training, test, challenge or transfer' }) }).optional(),
 	supplier: nameText(z.string().trim().toUpperCase().max(40)).optional(),
 	supplierLot: nameText(z.string().trim().max(80)).optional(),
 	/** Instrument id or name, for spectra that do not name one. */
@@ -96,7 +98,7 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 				const meta = s.meta ?? {};
 				// An explicit role for the upload wins over a role column; without either, spectra train.
 				const roleText = (labelling.role ?? pick(meta, labelling.roleColumn) ?? 'training').toLowerCase();
-				if (!(ROLES as readonly string[]).includes(roleText)) throw invalid(`${where}: role "${roleText}" is not training, test or challenge`, 'role');
+				if (!(ROLES as readonly string[]).includes(roleText)) throw invalid(`${where}: role "${roleText}" is not training, test, challenge or transfer`, 'role');
 				const role = roleText as LibraryRole;
 				const label = (pick(meta, labelling.classColumn) ?? labelling.class ?? '').toLowerCase();
 				if (!label) {

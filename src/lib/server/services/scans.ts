@@ -21,6 +21,7 @@ import * as identification from './identification';
 import { isClosed, type Identity, type LotStatus, type ScanVerdict } from './lots';
 import * as scanOrigin from './scan-origin';
 import * as intake from './spectra';
+import * as transfers from './transfers';
 import { displayFileName } from '../../validation/text';
 
 export { isClosed };
@@ -251,6 +252,10 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 			} else if (!model) {
 				verdict = 'not-screened';
 				reason = `not screened: no approved model for ${material.code}`;
+			} else if ((gateReason = await transfers.scanBlock(tx, { versionId: model.versionId, materialId: material.id, instrumentId: instrument?.id ?? null }))) {
+				// issue 14 §3: the approved version screens only its home instruments and those with an approved transfer
+				verdict = 'unusable';
+				reason = gateReason;
 			} else {
 				result = screenStored(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
 				if (result.verdict === 'not-this-material') result = { ...result, identification: await identification.forSpectrum(s, others, material.id, tx) } as ScreenResult;
@@ -296,7 +301,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		// A non-genuine verdict opens (or raises) the supplier alert in this same transaction.
 		await alerts.openForScan(tx, actor, { id: scan.id, lotId, container, verdict, profile: result?.profile ?? null, reason });
 		await drift.evaluateLot(tx, actor, lotId);
-		return { scanId: scan.id, verdict, profile: result?.profile ?? null, ambiguous: result?.ambiguous ?? false, reason, modelVersion: result ? { id: model!.versionId, label: model!.label } : null, spectrumId: stored.id, sha256: stored.sha256, title: stored.title, status };
+		return { scanId: scan.id, verdict, profile: result?.profile ?? null, ambiguous: result?.ambiguous ?? false, reason, instrumentStated: instrument != null, modelVersion: result ? { id: model!.versionId, label: model!.label } : null, spectrumId: stored.id, sha256: stored.sha256, title: stored.title, status };
 	});
 	return { ...outcome, lotId, container, fileName: file.fileName };
 }
@@ -388,7 +393,7 @@ export async function rescreen(actor: Actor, lotRef: number | string, reason = '
 		if (!redo.length) throw conflict('No container of this lot waits for screening');
 		const added: { scanId: number; container: number; verdict: ScanVerdict; profile: string | null }[] = [];
 		for (const p of redo) {
-			const block = await instrumentGate.screeningBlock(tx, p.instrument_id);
+			const block = (await instrumentGate.screeningBlock(tx, p.instrument_id)) ?? (await transfers.scanBlock(tx, { versionId: model.versionId, materialId: preview.material_id, instrumentId: p.instrument_id }));
 			if (block) {
 				const scan = await insertScan(tx, actor, { lotId, container: p.container, spectrumId: Number(p.spectrum_id), modelVersionId: null, verdict: 'unusable', profile: null, ambiguous: false, reason: block, result: null, instrumentId: p.instrument_id, rescreenOf: Number(p.id) });
 				added.push({ scanId: scan.id, container: p.container, verdict: 'unusable', profile: null });

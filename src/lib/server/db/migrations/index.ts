@@ -13,6 +13,7 @@ import acceptanceCriteria from './040-acceptance-criteria';
 import auditorRole from './060-auditor-role';
 import supplierDrift from './080-supplier-drift';
 import instrumentChecks from './081-instrument-checks';
+import modelTransfer from './150-model-transfer';
 
 export interface Migration {
 	name: string;
@@ -21,4 +22,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer];

@@ -10,6 +10,7 @@ import { ServiceError } from '$lib/server/services/errors';
 import * as library from '$lib/server/services/library';
 import * as materials from '$lib/server/services/materials';
 import * as versions from '$lib/server/services/model-versions';
+import * as transfers from '$lib/server/services/transfers';
 import { refuse } from '../service-errors.server';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -51,6 +52,7 @@ export const load = (async (event) => {
 		},
 		versions: modelVersions,
 		canManage: hasRole(actor, can.manageMaterials),
+		requireInstrument: await transfers.requiresInstrument(material.id),
 		classForm: await superValidate(zod(classFormSchema), { id: 'add-class' })
 	};
 }) satisfies PageServerLoad;
@@ -65,6 +67,19 @@ export const actions = {
 		} catch (error) {
 			if (error instanceof ServiceError) return fail(error.status === 403 ? 403 : 400, { replicatesError: error.message });
 			if (error instanceof ZodError) return fail(400, { replicatesError: error.issues[0]?.message ?? 'Invalid input' });
+			throw error;
+		}
+	},
+	requireInstrument: async (event) => {
+		const actor = requireUser(event, can.manageMaterials);
+		const material = await materials.get(event.params.code);
+		const data = await event.request.formData();
+		try {
+			await transfers.setRequireInstrument(actor, material.id, { required: data.get('required') === 'on', reason: String(data.get('reason') ?? '') });
+			return { requireInstrumentSet: true };
+		} catch (error) {
+			if (error instanceof ServiceError) return fail(error.status === 403 ? 403 : 400, { requireInstrumentError: error.message });
+			if (error instanceof ZodError) return fail(400, { requireInstrumentError: error.issues[0]?.message ?? 'Invalid input' });
 			throw error;
 		}
 	},

@@ -8,6 +8,7 @@ import { chooseOne } from '$lib/server/forms';
 import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import * as versions from '$lib/server/services/model-versions';
+import * as transfers from '$lib/server/services/transfers';
 import { refuse } from '../../../service-errors.server';
 import { versionIdFor } from './version.server';
 import { versionView } from './view.server';
@@ -34,8 +35,11 @@ export const load = (async (event) => {
 	const actor = requireUser(event);
 	const id = await versionIdFor(event.params);
 	const view = await versionView(id, event.url.searchParams);
+	const instruments = await transfers.forVersion(id);
 	return {
 		...view,
+		// issue 14 §3: the instruments this version screens (home and approved transfers), and training spectra without one
+		instruments: { approvedFor: instruments.approvedFor, unstated: instruments.home.unstated, pending: instruments.transfers.filter((t) => t.state === 'proposed').length },
 		canEdit: hasRole(actor, can.buildModels),
 		canApprove: hasRole(actor, can.approveModels) && view.version.builtBy.id !== actor.id,
 		isBuilder: view.version.builtBy.id === actor.id,
