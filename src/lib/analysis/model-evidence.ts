@@ -7,6 +7,8 @@ import { prepareArtefact, screen } from './screen';
 import type { ModelArtefact } from './artefact';
 import { chi2Inv } from './quantiles';
 import { resampleOnto } from './axis';
+import { compareDiscriminants, treeConfusions, type DiscriminantComparison, type TreeValidation } from './tree-validation';
+import type { ScreenResult } from './screen';
 
 export interface ModelFigure {
 	name: string;
@@ -55,6 +57,16 @@ export interface Validation {
 	/** engine's evaluate() result without the per-spectrum results: confusion K×(K+2), per-class metrics with Clopper–Pearson 95 % intervals */
 	report: Omit<ValidationReport, 'results'> | null;
 	verdicts: { entryId: number; label: string; role: string; verdict: string; profile: string | null; reason: string | null }[];
+	/** One confusion matrix per node with children and one for the whole path (versions built before trees: absent). */
+	tree?: TreeValidation | null;
+	/** PLS-DA and kNN trained on the same training set and recipe, on the same test and challenge spectra. */
+	discriminants?: DiscriminantComparison | null;
+}
+
+/** How the build placed library labels in the tree, and its training rows (for the classifier comparison). */
+export interface EvidenceTree {
+	classOf: Record<string, string>;
+	training: { id: string; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um'; className: string; group: string | null }[];
 }
 
 function withoutResults(r: ValidationReport): Omit<ValidationReport, 'results'> {
@@ -116,7 +128,8 @@ export function modelEvidence(
 	withData: EvidenceSpectrum[],
 	artefact: ModelArtefact,
 	members: { entryId: number }[],
-	classes: { name: string; kind: 'genuine' | 'suspect' }[]
+	classes: { name: string; kind: 'genuine' | 'suspect' }[],
+	tree: EvidenceTree | null = null
 ): { figures: Omit<Figures, 'buildMs'>; validation: Validation } {
 	if (!artefact?.axis?.x?.length) throw new AnalysisError('bad-artefact', 'The model artefact has no axis');
 	if (!Array.isArray(withData)) throw new AnalysisError('bad-input', 'The spectra to screen must be a list');
@@ -126,7 +139,10 @@ export function modelEvidence(
 	const overview: Figures['overview'] = { axis: plotX, spectra: {} };
 	const projections: Record<string, Projection> = {};
 	const verdicts: Validation['verdicts'] = [];
-	const tests: { id: string; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um'; expected: string }[] = [];
+	const tests: { id: string; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um'; expected: string | null }[] = [];
+	const testResults: ScreenResult[] = [];
+	// a held-out label the tree places is expected at its node path; any other label keeps its own name (an alien's is in no class)
+	const expectedOf = (label: string) => tree?.classOf[label] ?? label;
 	const prepared = prepareArtefact(artefact);
 	for (const e of withData) {
 		const result = screen(prepared, { id: String(e.id), axis: e.axis, values: e.values, unit: e.unit });
@@ -137,7 +153,8 @@ export function modelEvidence(
 		const resampled = resampleOnto(e, plotAxis);
 		if (resampled.ok) overview.spectra[String(e.id)] = Array.from(resampled.values, (y) => Number(y.toPrecision(6)));
 		if (e.role !== 'training') {
-			tests.push({ id: String(e.id), axis: e.axis, values: e.values, unit: e.unit, expected: e.label });
+			tests.push({ id: String(e.id), axis: e.axis, values: e.values, unit: e.unit, expected: expectedOf(e.label) });
+			testResults.push(result);
 			verdicts.push({ entryId: e.id, label: e.label, role: e.role, verdict: result.verdict, profile: result.profile, reason: result.reason });
 		}
 	}
@@ -145,7 +162,8 @@ export function modelEvidence(
 	const figures: Omit<Figures, 'buildMs'> = {
 		trainingCount: members.length,
 		excludedCount: withData.filter((e) => e.role === 'training' && !included.has(String(e.id))).length,
-		classes: classes.map((c) => ({ name: c.name, kind: c.kind, n: artefact.models[c.name]?.n ?? 0 })),
+		// the artefact's level-1 classes (a tree may rename them), with the material's kind where it names one
+		classes: artefact.classes.map((c) => ({ name: c, kind: classes.find((k) => k.name === c)?.kind ?? (c === artefact.genuine ? 'genuine' : 'suspect'), n: artefact.models[c]?.n ?? 0 })),
 		models: [modelFigure(artefact.family), ...artefact.classes.map((c) => modelFigure(artefact.models[c]))],
 		projections,
 		overview
@@ -157,5 +175,10 @@ export function modelEvidence(
 		report: tests.length ? withoutResults(evaluate(artefact, tests)) : null,
 		verdicts
 	};
+	if (tests.length && tree) {
+		const known = (e: string | null) => (e !== null && artefact.classes.includes(e.split('/')[0]) ? e : null);
+		validation.tree = treeConfusions(artefact, testResults.map((r, i) => ({ path: r.path, levels: r.levels, expected: known(tests[i].expected) })));
+		validation.discriminants = compareDiscriminants(artefact, tree.training, tests.map((t) => ({ ...t, expected: known(t.expected) })), { results: testResults });
+	}
 	return { figures, validation };
 }

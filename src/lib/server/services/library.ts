@@ -3,6 +3,7 @@ import { can } from '../../permissions';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { nameText } from '../../validation/text';
+import { labelClass } from '../../analysis/tree-spec';
 import { sequelize, transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
@@ -104,10 +105,16 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 				if (!label) {
 					throw invalid(`${where}: no class label — add a "${labelling.classColumn}" column or choose the class for these files`, 'class');
 				}
-				const cls = classByName.get(label);
+				// A label may be a path below its class ("diluted/starch", "suspect/diluted/starch"): the model tree places it.
+				const parsed = labelClass(label);
+				if ('problem' in parsed && role !== 'challenge') throw invalid(`${where}: ${parsed.problem}`, 'class');
+				const cls = 'problem' in parsed ? undefined : classByName.get(parsed.className);
 				// Challenge spectra may carry an alien's label (e.g. talc-cut): no class model should accept them.
 				if (!cls && role !== 'challenge') {
-					throw invalid(`${where}: class "${label}" is not a class of ${material.code} (classes: ${classes.map((c) => c.name).join(', ') || 'none yet'})`, 'class');
+					throw invalid(
+						`${where}: class "${'problem' in parsed ? label : parsed.className}"${'problem' in parsed || parsed.path.length === 1 ? '' : ` (of label "${label}")`} is not a class of ${material.code} (classes: ${classes.map((c) => c.name).join(', ') || 'none yet'})`,
+						'class'
+					);
 				}
 				const supplierCode = pick(meta, labelling.supplierColumn) ?? labelling.supplier;
 				const supplierId = supplierCode ? supplierByCode.get(supplierCode.toUpperCase()) : null;

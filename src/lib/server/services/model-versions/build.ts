@@ -4,6 +4,7 @@ import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { buildModel, parseRecipe, serializeArtefact } from '../../../analysis';
 import { convertAxis } from '../../../analysis/axis';
+import { labelClass, planTree, specFromLabels, type TreePlan } from '../../../analysis/tree-spec';
 import { sequelize, transaction } from '../../db';
 import { hasRole, type Actor } from '../actor';
 import * as audit from '../audit';
@@ -30,25 +31,50 @@ interface PlannedMembership {
 	inclusionReason?: string | null;
 }
 
-/** Refuses a build that cannot give a sound model, before any job runs: classes too small, axes without a common range. */
+/**
+ * The tree a build uses: the one edited on the build page (params.tree), else the tree the library labels give
+ * (as `lotgate build` does), checked against the included training spectra per label.
+ */
+export function treePlan(params: BuildParams, perLabel: Record<string, number>, genuineClass: string | null): { plan: TreePlan | null; problems: string[] } {
+	if (params.tree && params.genuine) {
+		const top = params.tree.find((n) => n.kind === 'genuine');
+		if (top && top.name !== params.genuine) return { plan: null, problems: [`the genuine class "${params.genuine}" is not the tree's genuine node "${top.name}"`] };
+	}
+	const spec = params.tree ?? specFromLabels(Object.keys(perLabel), params.genuine ?? genuineClass);
+	return planTree(spec, perLabel, { components: params.components });
+}
+
+/** Refuses a build that cannot give a sound model, before any job runs: classes or tree nodes too small, axes without a common range. */
 export async function checkTrainingSet(material: { id: number; code: string }, params: BuildParams, planned: PlannedMembership[]) {
 	const classes = await materials.classes(material.id);
-	if (!classes.some((c) => c.kind === 'genuine')) throw invalid(`${material.code} has no genuine class yet: add it before building`, 'classes');
+	const genuineClass = classes.find((c) => c.kind === 'genuine');
+	if (!genuineClass) throw invalid(`${material.code} has no genuine class yet: add it before building`, 'classes');
 	const included = new Set(planned.filter((p) => p.included).map((p) => p.entryId));
 	const entries = (await library.entriesOf(material.id, ['training'])).filter((e) => included.has(e.id));
-	const byClass = new Map<string, number>();
-	for (const e of entries) byClass.set(e.label, (byClass.get(e.label) ?? 0) + 1);
+	const perLabel: Record<string, number> = {};
+	for (const e of entries) perLabel[e.label] = (perLabel[e.label] ?? 0) + 1;
 	const problems: string[] = [];
-	for (const c of classes) {
-		const A = params.components;
-		const need = minimumFor(A);
-		const have = byClass.get(c.name) ?? 0;
-		if (have < need) problems.push(`class ${c.name} has ${have} included training spectra, needs at least ${need} (max(10, A + 3)${A === 'auto' ? '' : ` with A = ${A}`})`);
+	if (!params.tree) {
+		// without an edited tree every class of the material must be modelled (a label path counts for its class)
+		const byClass = new Map<string, number>();
+		for (const [label, n] of Object.entries(perLabel)) {
+			const c = labelClass(label);
+			const name = 'problem' in c ? label : c.className;
+			byClass.set(name, (byClass.get(name) ?? 0) + n);
+		}
+		for (const c of classes) {
+			const A = params.components;
+			const need = minimumFor(A);
+			const have = byClass.get(c.name) ?? 0;
+			if (have < need) problems.push(`class ${c.name} has ${have} included training spectra, needs at least ${need} (max(10, A + 3)${A === 'auto' ? '' : ` with A = ${A}`})`);
+		}
 	}
 	const familyNeed = minimumFor(params.familyComponents);
 	if (entries.length < familyNeed) problems.push(`the family model has ${entries.length} training spectra, needs at least ${familyNeed}`);
 	if (problems.length) throw invalid(`Cannot build ${material.code}: ${problems.join('; ')}. Add library spectra, re-include some, or lower the fixed component count.`, 'training');
 	if (params.genuine && !classes.some((c) => c.name === params.genuine)) throw invalid(`"${params.genuine}" is not a class of ${material.code}`, 'genuine');
+	const tree = treePlan(params, perLabel, genuineClass.name);
+	if (!tree.plan) throw invalid(`Cannot build ${material.code} with this tree: ${tree.problems.join('; ')}.`, params.tree ? 'tree' : 'training');
 
 	// A common axis exists only if every spectrum covers one shared interval (after unit conversion).
 	const axes = await sequelize().query<{ id: number; unit: 'nm' | 'cm-1' | 'um'; lo: number; hi: number; first: number; last: number; points: number }>(
@@ -209,9 +235,13 @@ export async function runBuild(versionId: number): Promise<void> {
 		const groupKey = params.groupBy;
 		const groupOf = (e: library.LibraryRow) => (groupKey === 'supplier_lot' ? e.supplierLot : groupKey === 'supplier' ? e.supplier : groupKey === 'instrument' ? e.instrument : null);
 		const useGroups = groupKey !== 'none' && training.some((e) => groupOf(e));
-		const genuine = params.genuine ?? classes.find((c) => c.kind === 'genuine')?.name;
+		const perLabel: Record<string, number> = {};
+		for (const e of training) perLabel[e.label] = (perLabel[e.label] ?? 0) + 1;
+		const { plan, problems } = treePlan(params, perLabel, classes.find((c) => c.kind === 'genuine')?.name ?? null);
+		if (!plan) throw new Error(`the model tree cannot be built: ${problems.join('; ')}`);
+		const trainingRows = training.map((e) => ({ id: String(e.id), axis: e.axis, values: e.values, unit: e.unit, className: plan.classOf[e.label], group: useGroups ? (groupOf(e) ?? null) : null }));
 		const artefact = buildModel(
-			training.map((e) => ({ id: String(e.id), axis: e.axis, values: e.values, unit: e.unit, className: e.label, group: useGroups ? (groupOf(e) ?? null) : null })),
+			trainingRows,
 			{
 				recipe: params.recipe,
 				components: params.components,
@@ -222,7 +252,8 @@ export async function runBuild(versionId: number): Promise<void> {
 				limits: params.limits,
 				folds: params.folds,
 				speLimit: params.speLimit,
-				genuine,
+				genuine: plan.genuine,
+				nodes: plan.nodes,
 				meta: { material: material.code, version: String(v.version), versionId: String(v.id), technique: material.technique },
 				onProgress: (p: { done: number; total: number; stage: string; model: string; fold?: number; folds?: number; message: string }) => {
 					const percent = p.total ? Math.min(95, 5 + Math.round((90 * (p.done ?? 0)) / p.total)) : undefined;
@@ -233,7 +264,7 @@ export async function runBuild(versionId: number): Promise<void> {
 		writeProgress({ stage: 'validating', message: 'Screening test and challenge spectra', percent: 96 }, true);
 		const text = serializeArtefact(artefact);
 		const sha = createHash('sha256').update(text).digest('hex');
-		const evidence = modelEvidence(everything, artefact, members, classes);
+		const evidence = modelEvidence(everything, artefact, members, classes, { classOf: plan.classOf, training: trainingRows });
 		const figures = { ...evidence.figures, buildMs: Math.round(performance.now() - started) };
 		const validation = evidence.validation;
 		await pendingWrite;

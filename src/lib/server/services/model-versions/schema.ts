@@ -3,6 +3,7 @@ import { z } from 'zod';
 import { nameText, proseText } from '../../../validation/text';
 import { parseRecipe } from '../../../analysis';
 import { alphaRefusal } from '../../../analysis/alpha-bounds';
+import { treeSpecSchema } from '../../../validation/tree';
 
 export const APPROVAL_MEANING = 'approved for screening';
 
@@ -61,6 +62,8 @@ export const buildParamsSchema = z.object({
 	groupBy: z.enum(GROUPINGS, { errorMap: () => ({ message: 'Group folds by supplier_lot, supplier, instrument or none' }) }).default('supplier_lot'),
 	speLimit: z.enum(['jackson-mudholkar', 'box', 'moments'], { errorMap: () => ({ message: 'SPE limit is jackson-mudholkar, box or moments' }) }).default('moments'),
 	genuine: nameText(z.string().trim().toLowerCase()).optional(),
+	/** The model tree as edited (nodes, kinds, split methods, per-node recipes, library labels); absent: the tree the labels give. */
+	tree: treeSpecSchema.optional(),
 	note: proseText(z.string().trim().max(2000)).optional()
 });
 

@@ -20,9 +20,9 @@ export const load = (async (event) => {
 	if (latest) {
 		const full = await versions.get(latest.id);
 		const p = full.params;
-		Object.assign(form.data, { ...p, components: String(p.components), familyComponents: String(p.familyComponents), note: '' });
+		Object.assign(form.data, { ...p, components: String(p.components), familyComponents: String(p.familyComponents), tree: p.tree ? JSON.stringify(p.tree) : '', note: '' });
 	}
-	return { material: materials.toPublic(material), classes, summary, form, minimum: versions.MIN_PER_CLASS, basedOn: latest ? `v${latest.version}` : null };
+	return { material: materials.toPublic(material), classes, summary, form, genuine: classes.find((c) => c.kind === 'genuine')?.name ?? null, minimum: versions.MIN_PER_CLASS, basedOn: latest ? `v${latest.version}` : null };
 }) satisfies PageServerLoad;
 
 export const actions = {

@@ -3,6 +3,7 @@ import { z } from 'zod';
 import { proseText } from '$lib/validation/text';
 import { parseRecipe } from '$lib/analysis/preprocess/recipe';
 import { alphaRefusal } from '$lib/analysis/alpha-bounds';
+import { parseTreeText } from '$lib/validation/tree';
 
 const componentsField = z
 	.string()
@@ -38,6 +39,15 @@ export const buildFormSchema = z.object({
 	folds: z.coerce.number().int('Folds must be a whole number').min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
 	groupBy: z.enum(['supplier_lot', 'supplier', 'instrument', 'none']).default('supplier_lot'),
 	speLimit: z.enum(['moments', 'jackson-mudholkar', 'box']).default('moments'),
+	/** The model tree as JSON text ('' = the tree that follows from the library labels); the service checks its rules. */
+	tree: z
+		.string()
+		.max(200_000, 'The tree is too large')
+		.default('')
+		.superRefine((text, ctx) => {
+			const { problem } = parseTreeText(text);
+			if (problem) ctx.addIssue({ code: 'custom', message: problem });
+		}),
 	note: proseText(z.string().trim().max(2000)).default('')
 });
 export type BuildForm = z.infer<typeof buildFormSchema>;
@@ -46,5 +56,6 @@ export const toParams = (f: BuildForm) => ({
 	...f,
 	components: f.components === 'auto' ? ('auto' as const) : Number(f.components),
 	familyComponents: f.familyComponents === 'auto' ? ('auto' as const) : Number(f.familyComponents),
+	tree: parseTreeText(f.tree).tree ?? undefined,
 	note: f.note || undefined
 });
