@@ -113,6 +113,41 @@ export async function validationPdf(v: PublicVersion, auditHead: { seq: number; 
 			[100, 35, 35, 35, 35, (width - 240) / 2, (width - 240) / 2]
 		);
 	}
+	const tree = v.validation?.tree;
+	if (tree && tree.nodes.length > 1) {
+		h('Per node of the model tree');
+		p('Rows: the child a held-out spectrum is labelled with, then spectra that reached the node but belong elsewhere. Columns: the child chosen, none of these, or stopped above (the walk ended at a higher node).');
+		for (const n of tree.nodes) {
+			doc.moveDown(0.3);
+			p(`${n.node.length ? n.node.join(' > ') : 'First level (after the family model)'}: ${n.method}, ${n.correct} of ${n.expected} to the labelled child.`);
+			table(['labelled / chosen', ...n.columns], n.rows.map((r, i) => [r, ...n.counts[i].map(String)]));
+		}
+		h('Whole path');
+		table(['labelled / named', ...tree.path.columns.map((c) => c.replaceAll('/', ' > '))], tree.path.rows.map((r, i) => [r.replaceAll('/', ' > '), ...tree.path.counts[i].map(String)]));
+	}
+	const disc = v.validation?.discriminants;
+	if (disc) {
+		h('One-class models against closed-set classifiers (PLS-DA, kNN)');
+		p(`Trained on the same training spectra with the same recipe (${disc.recipe}), classifying the same test and challenge spectra at the first level; components and k by cross-validation. Second-line evidence only.`);
+		const g = disc.genuine ?? 'genuine';
+		const choice = (c: { method: string; chosen: number }) => (c.method === 'plsda' ? `${c.chosen} latent variables` : `k = ${c.chosen}`);
+		table(
+			['Method', 'Cross-validated choice', 'Test spectra named correctly', `Challenge spectra called ${g}`],
+			[
+				['one-class models (this version)', '-', `${disc.oneClass.correct} of ${disc.oneClass.known}`, `${disc.oneClass.aliensCalledGenuine} of ${disc.oneClass.aliens}`],
+				...disc.classifiers.map((c) => [c.method === 'plsda' ? 'PLS-DA' : 'kNN', choice(c), `${c.correct} of ${c.known}`, `${c.aliensCalledGenuine} of ${c.aliens}`])
+			]
+		);
+		if (disc.oneClass.aliens > 0)
+			p(
+				`A closed-set classifier assigns every challenge spectrum to some class. Of ${disc.oneClass.aliens} challenge spectra, ${disc.classifiers.map((c) => `${c.method === 'plsda' ? 'PLS-DA' : 'kNN'} would have called ${c.aliensCalledGenuine} ${g}`).join(', ')}; the one-class models called ${disc.oneClass.aliensCalledGenuine}.`
+			);
+		for (const c of disc.classifiers) {
+			doc.moveDown(0.3);
+			p(`${c.method === 'plsda' ? 'PLS-DA' : 'kNN'} (${choice(c)}). Cross-validated misclassification: ${c.candidates.map((k, i) => `${c.method === 'plsda' ? 'A' : 'k'} = ${k}: ${pct(c.cvError[i])}`).join(', ')}.`);
+			table(['labelled / assigned', ...c.columns], c.rows.map((r, i) => [r, ...c.counts[i].map(String)]));
+		}
+	}
 	if (v.acceptance) {
 		const a = v.acceptance;
 		h(`Acceptance criteria: ${a.met ? 'all met' : 'NOT met'}`);
