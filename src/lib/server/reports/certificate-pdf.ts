@@ -4,66 +4,8 @@
 import canonicalize from 'canonicalize';
 import PDFDocument from 'pdfkit';
 import { createHash } from 'node:crypto';
-import { readFileSync } from 'node:fs';
-import { createRequire } from 'node:module';
-import { dirname, join } from 'node:path';
-import { inflateSync } from 'node:zlib';
 import { layoutLabels } from '../../layout/label-layout';
-
-const require = createRequire(import.meta.url);
-// The package exports no font paths, but it does export its LICENSE, which sits beside files/.
-const fontDir = () => join(dirname(require.resolve('@fontsource/source-sans-3/LICENSE')), 'files');
-const FONT = { regular: 'source-sans-3-latin-400-normal.woff', semibold: 'source-sans-3-latin-600-normal.woff' };
-
-/**
- * WOFF 1.0 → plain sfnt (TrueType/OpenType) bytes: the same tables, inflated once. fontkit re-inflates a WOFF table on
- * every glyph lookup, which made one certificate take over a second; from the sfnt bytes it takes a few milliseconds.
- */
-export function woffToSfnt(woff: Buffer): Buffer {
-	if (woff.toString('latin1', 0, 4) !== 'wOFF') throw new Error('not a WOFF 1.0 file');
-	const numTables = woff.readUInt16BE(12);
-	const tables = Array.from({ length: numTables }, (_, i) => {
-		const at = 44 + i * 20;
-		const offset = woff.readUInt32BE(at + 4);
-		const compLength = woff.readUInt32BE(at + 8);
-		const origLength = woff.readUInt32BE(at + 12);
-		const raw = woff.subarray(offset, offset + compLength);
-		const data = compLength < origLength ? inflateSync(raw) : Buffer.from(raw);
-		if (data.length !== origLength) throw new Error('WOFF table length mismatch');
-		return { tag: woff.subarray(at, at + 4), checksum: woff.readUInt32BE(at + 16), data };
-	});
-	let power = 1;
-	while (power * 2 <= numTables) power *= 2;
-	const header = Buffer.alloc(12 + 16 * numTables);
-	woff.copy(header, 0, 4, 8); // flavor
-	header.writeUInt16BE(numTables, 4);
-	header.writeUInt16BE(power * 16, 6);
-	header.writeUInt16BE(Math.log2(power), 8);
-	header.writeUInt16BE(numTables * 16 - power * 16, 10);
-	const bodies: Buffer[] = [];
-	let offset = header.length;
-	tables.forEach((t, i) => {
-		const at = 12 + i * 16;
-		t.tag.copy(header, at);
-		header.writeUInt32BE(t.checksum, at + 4);
-		header.writeUInt32BE(offset, at + 8);
-		header.writeUInt32BE(t.data.length, at + 12);
-		const padded = Buffer.alloc((t.data.length + 3) & ~3);
-		t.data.copy(padded);
-		bodies.push(padded);
-		offset += padded.length;
-	});
-	return Buffer.concat([header, ...bodies]);
-}
-
-let fonts: { regular: Buffer; semibold: Buffer } | null = null;
-function fontBytes() {
-	if (!fonts) {
-		const dir = fontDir();
-		fonts = { regular: woffToSfnt(readFileSync(join(dir, FONT.regular))), semibold: woffToSfnt(readFileSync(join(dir, FONT.semibold))) };
-	}
-	return fonts;
-}
+import { printable, reportFonts } from './pdf-fonts';
 
 export interface CertificateStats {
 	t2: number | null;
@@ -160,18 +102,8 @@ export interface CertificateContent {
 	caution: string;
 }
 
-// The Latin subset covers U+0000–00FF and general punctuation; anything else is spelled out rather than a blank box.
-const latin = (s: string) =>
-	s
-		.replace(/α/g, 'alpha')
-		.replace(/γ/g, 'gamma')
-		.replace(/≤/g, '<=')
-		.replace(/≥/g, '>=')
-		.replace(/√/g, 'sqrt')
-		.replace(/⌈/g, 'ceil(')
-		.replace(/⌉/g, ')')
-		.replace(/[₀-₉]/g, (d) => String(d.charCodeAt(0) - 0x2080))
-		.replace(/[^\u0000-\u00ff\u2000-\u206f\u20ac\u2122\u2212]/g, '?');
+// Every text goes through the embedded font's own character map (pdf-fonts.ts): what it lacks is spelled out.
+const latin = printable;
 
 const num = (x: number | null | undefined, digits = 3) => (x == null || !Number.isFinite(x) ? '-' : Math.abs(x) >= 1000 || (Math.abs(x) < 0.01 && x !== 0) ? x.toExponential(2) : x.toFixed(digits));
 const pair = (a: number | null | undefined, b: number | null | undefined) => `${num(a, 2)} / ${num(b, 2)}`;
@@ -227,7 +159,7 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 			ModDate: issued
 		}
 	});
-	const font = fontBytes();
+	const font = reportFonts();
 	doc.registerFont('body', font.regular);
 	doc.registerFont('bold', font.semibold);
 	const chunks: Buffer[] = [];

@@ -8,6 +8,8 @@ export { diff } from './diff';
 export { markExclusion, markInclusion, clearPending, rebuild } from './exclusions';
 export { pageData } from './page';
 export { draftsAwaiting, queueItems } from './queue';
+export { reportExtras } from './report';
+export type { ReportExtras } from './report';
 export { resolve, get, listForMaterial, artefactText, approvedFor, memberships } from './read';
 export type { PublicVersion } from './read';
 export { APPROVAL_MEANING, EXCLUSION_CATEGORIES, EXCLUSION_LABELS, GROUPINGS, MIN_PER_CLASS, minimumFor, buildParamsSchema } from './schema';
