@@ -8,7 +8,7 @@ const config = {
 		adapter: adapter({ out: 'build' }),
 		// hooks.server.ts checks the origin itself: browsers posting from another site are refused,
 		// while instruments and scripts (which send no Origin header) may post multipart uploads.
-		csrf: { checkOrigin: false },
+		csrf: { trustedOrigins: ['*'] },
 		// Content-Security-Policy on every page: scripts only from this origin or with the per-response nonce (no
 		// 'unsafe-inline' for scripts); inline style attributes stay allowed (Svelte and Chart.js set them). No framing.
 		csp: {

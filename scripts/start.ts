@@ -1,11 +1,14 @@
 // `npm start`: database (embedded unless DATABASE_URL), migrations, demo seed, build (only when the sources or the
 // lockfile changed), then the app on 127.0.0.1. `npm run serve` serves an existing build without any of this.
-import { spawn, spawnSync } from 'node:child_process';
+import { spawn } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { existsSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { createInterface } from 'node:readline';
+import { noiseFilter } from './lib/build-noise.mjs';
 import { buildIsCurrent, sourceHash } from './lib/build-stamp.mjs';
 import { projectRoot, stopCluster } from './lib/postgres';
+import { startBanner } from './lib/start-banner';
 import { authSecret, dataRoot, resolveDatabase } from './lib/runtime';
 
 // A launcher killed with SIGKILL cannot stop its app; that orphan would hold the port. Stop it before starting again.
@@ -78,9 +81,26 @@ if (process.env.LOTGATE_SKIP_BUILD !== '1') {
 		console.log('[start] the build is current (sources and lockfile unchanged): not rebuilding');
 	} else {
 		console.log('[start] building the app…');
-		const build = spawnSync(process.execPath, [resolve(projectRoot, 'scripts/build.mjs'), '--logLevel', 'warn'], { cwd: projectRoot, stdio: 'inherit', env });
-		if (build.status !== 0) process.exit(build.status ?? 1);
+		const status = await buildQuietly();
+		if (status !== 0) process.exit(status);
 	}
+}
+
+/** The build, with third-party bundler warnings left out of the start output (`npm run build` shows everything). */
+async function buildQuietly(): Promise<number> {
+	const child = spawn(process.execPath, [resolve(projectRoot, 'scripts/build.mjs'), '--logLevel', 'warn'], { cwd: projectRoot, stdio: ['ignore', 'pipe', 'pipe'], env });
+	let hidden = 0;
+	const isNoise = noiseFilter();
+	const relay = (stream: NodeJS.ReadableStream, out: NodeJS.WriteStream) =>
+		createInterface({ input: stream }).on('line', (line) => {
+			if (isNoise(line)) hidden++;
+			else out.write(`${line}\n`);
+		});
+	relay(child.stdout!, process.stdout);
+	relay(child.stderr!, process.stderr);
+	const code = await new Promise<number>((done) => child.on('close', (c) => done(c ?? 1)));
+	if (hidden) console.log(`[start] ${hidden} warnings about third-party packages hidden (\`npm run build\` shows them)`);
+	return code;
 }
 
 const services = await import('./lib/services');
@@ -107,14 +127,16 @@ async function answering(): Promise<boolean> {
 
 app.on('spawn', async () => {
 	if (!(await answering())) return;
-	console.log(`\nLotgate is serving on http://127.0.0.1:${port} (ready in ${((Date.now() - started) / 1000).toFixed(1)} s)`);
-	console.log(`Database: ${embedded ? `embedded PostgreSQL, ${url}` : 'external (DATABASE_URL)'}`);
-	if (demo) {
-		const password = process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate';
-		console.log(`Demo accounts (password "${password}"):`);
-		for (const email of ['technician@demo.test', 'chemist@demo.test', 'qa@demo.test', 'qa2@demo.test', 'buyer@demo.test', 'admin@demo.test']) console.log(`  ${email}`);
-	}
-	console.log('Stop with Ctrl-C or `npm run stop`.\n');
+	const seconds = (Date.now() - started) / 1000;
+	const accounts = demo ? (await import('../src/lib/server/demo/seed')).DEMO_ACCOUNTS : null;
+	const lines = startBanner({
+		url: `http://127.0.0.1:${port}`,
+		seconds,
+		database: embedded ? `embedded PostgreSQL, ${url}` : 'external (DATABASE_URL)',
+		accounts,
+		password: process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate'
+	});
+	console.log(`\n${lines.join('\n')}\n`);
 });
 
 let stopping = false;

@@ -113,9 +113,18 @@ export async function writeCheckpoint(options: { reason: string; force?: boolean
 	return cp;
 }
 
+const inFlight = new Set<Promise<unknown>>();
+
 /** Writes checkpoints in the background (failures are logged, never thrown), for the server. */
 export function checkpointSoon(reason: string) {
-	writeCheckpoint({ reason }).catch((error) => console.error('[audit] checkpoint not written:', error?.message ?? error));
+	const written = writeCheckpoint({ reason }).catch((error) => console.error('[audit] checkpoint not written:', error?.message ?? error));
+	inFlight.add(written);
+	void written.finally(() => inFlight.delete(written));
+}
+
+/** Waits for background checkpoints, so a script (the demo seed) does not close the database under one. */
+export async function checkpointsSettled(): Promise<void> {
+	while (inFlight.size) await Promise.allSettled([...inFlight]);
 }
 
 let timer: NodeJS.Timeout | null = null;
