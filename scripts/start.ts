@@ -3,6 +3,8 @@
 import { spawn } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { existsSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { createServer } from 'node:net';
+import pg from 'pg';
 import { resolve } from 'node:path';
 import { createInterface } from 'node:readline';
 import { noiseFilter } from './lib/build-noise.mjs';
@@ -50,31 +52,54 @@ const env: NodeJS.ProcessEnv = {
 };
 Object.assign(process.env, env);
 
-// Migrations as the owner role; everything after (seed, server, workers) as the app role.
-process.env.DATABASE_URL = ownerUrl;
-const { sequelize, closeDatabase } = await import('../src/lib/server/db/index');
-const { migrate } = await import('../src/lib/server/db/migrate');
-const applied = await migrate(sequelize(), { quiet: true });
-await closeDatabase();
-process.env.DATABASE_URL = url;
-console.log(`[start] migrations applied${applied.length ? ` (${applied.length} new)` : ' (none new)'}`);
-// The demo seed is idempotent but slow (it regenerates the demo spectra and hashes six passwords). It is skipped when it
-// already completed for this very database (its oid changes when it is recreated) from these very sources, and no
-// migration ran since.
+// The database's identity: its oid changes when it is dropped and recreated. Read with a bare pg client, so that a
+// start with nothing to do never loads Sequelize, the migrations or the seed.
 const hash = sourceHash();
+const oid = await (async () => {
+	const client = new pg.Client({ connectionString: url });
+	await client.connect();
+	try {
+		return String((await client.query('SELECT oid::text AS oid FROM pg_database WHERE datname = current_database()')).rows[0].oid);
+	} finally {
+		await client.end();
+	}
+})();
+const stampKey = (what: string) => createHash('sha256').update(`${what} ${url} ${oid} ${hash}`).digest('hex'); // no credentials on disk
+const stamped = (file: string, key: string) => existsSync(file) && readFileSync(file, 'utf8') === key;
+
+// Migrations as the owner role; everything after (seed, server, workers) as the app role. Skipped when these very
+// sources already migrated this very database (the list of migrations is part of the sources).
+const migratedStamp = resolve(dataRoot, 'migrated');
+let applied: string[] = [];
+let db: typeof import('../src/lib/server/db/index') | null = null;
+if (stamped(migratedStamp, stampKey('migrated'))) {
+	console.log('[start] migrations applied (none new: this database was migrated from these sources)');
+} else {
+	process.env.DATABASE_URL = ownerUrl;
+	db = await import('../src/lib/server/db/index');
+	const { migrate } = await import('../src/lib/server/db/migrate');
+	applied = (await migrate(db.sequelize(), { quiet: true })).map(String);
+	await db.closeDatabase();
+	writeFileSync(migratedStamp, stampKey('migrated'));
+	console.log(`[start] migrations applied${applied.length ? ` (${applied.length} new)` : ' (none new)'}`);
+}
+process.env.DATABASE_URL = url;
+// The demo seed is idempotent but slow (it regenerates the demo spectra and hashes six passwords). It is skipped when it
+// already completed for this very database from these very sources, and no migration ran since.
+let seeded = false;
 if (demo) {
-	const [{ oid }] = (await sequelize().query('SELECT oid::text AS oid FROM pg_database WHERE datname = current_database()', { type: 'SELECT' })) as { oid: string }[];
-	const seedKey = createHash('sha256').update(`${url} ${oid} ${hash}`).digest('hex'); // no credentials on disk
+	const seedKey = createHash('sha256').update(`${url} ${oid} ${hash}`).digest('hex');
 	const seedStamp = resolve(dataRoot, 'demo-seeded');
-	if (!applied.length && existsSync(seedStamp) && readFileSync(seedStamp, 'utf8') === seedKey) {
+	if (!applied.length && stamped(seedStamp, seedKey)) {
 		console.log('[start] demo scenario already seeded from these sources: not re-checking it');
 	} else {
 		const { seedDemo } = await import('../src/lib/server/demo/seed');
 		await seedDemo();
 		writeFileSync(seedStamp, seedKey);
+		seeded = true;
 	}
 }
-await closeDatabase();
+if (seeded) await (await import('../src/lib/server/db/index')).closeDatabase();
 
 if (process.env.LOTGATE_SKIP_BUILD !== '1') {
 	if (buildIsCurrent(hash)) {
@@ -103,12 +128,29 @@ async function buildQuietly(): Promise<number> {
 	return code;
 }
 
-const services = await import('./lib/services');
-const smtp = demo ? await services.startMailFake(env) : null;
-
+// The app's boot (loading the server bundle) and the demo mail recorder's start overlap: the recorder's port is chosen
+// first, so the app is spawned with its SMTP_URL at once (it connects only when it sends).
+let smtpPort = 0;
+if (demo) {
+	smtpPort = Number(process.env.LOTGATE_SMTP_PORT || 0) || (await freePort());
+	env.SMTP_URL = `smtp://127.0.0.1:${smtpPort}`;
+}
 const app = spawn(process.execPath, [resolve(projectRoot, 'build/index.js')], { cwd: projectRoot, stdio: 'inherit', env });
+const services = await import('./lib/services');
+const smtp = demo ? await services.startMailFake({ ...env, LOTGATE_SMTP_PORT: String(smtpPort) }) : null;
 writeFileSync(resolve(dataRoot, 'app.pid'), String(process.pid));
 if (app.pid) writeFileSync(childPidFile, String(app.pid));
+
+function freePort(): Promise<number> {
+	return new Promise((ok, fail) => {
+		const server = createServer();
+		server.once('error', fail);
+		server.listen(0, '127.0.0.1', () => {
+			const { port } = server.address() as { port: number };
+			server.close(() => ok(port));
+		});
+	});
+}
 
 /** Waits until the app answers, so the figure printed is the time to serving, not to spawning. */
 async function answering(): Promise<boolean> {
@@ -125,7 +167,8 @@ async function answering(): Promise<boolean> {
 	return false;
 }
 
-app.on('spawn', async () => {
+// Not on 'spawn': that event has passed while the mail recorder started.
+void (async () => {
 	if (!(await answering())) return;
 	const seconds = (Date.now() - started) / 1000;
 	const accounts = demo ? (await import('../src/lib/server/demo/seed')).DEMO_ACCOUNTS : null;
@@ -137,7 +180,7 @@ app.on('spawn', async () => {
 		password: process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate'
 	});
 	console.log(`\n${lines.join('\n')}\n`);
-});
+})();
 
 let stopping = false;
 async function shutdown(code = 0) {
