@@ -2,16 +2,13 @@
 // Synthetic data generated here: 500 spectra × 2000 points, three classes of a smooth NIR-like family.
 import os from 'node:os';
 import { buildModel, pca, prepareArtefact, screen, type TrainingSpectrum } from '../src/lib/analysis';
+import { createRng } from '../src/lib/analysis/prng';
 
 const N = 500;
 const P = 2000;
 
-function rng(seed: number): () => number {
-	let s = seed >>> 0;
-	return () => ((s = (Math.imul(s, 1664525) + 1013904223) >>> 0) + 0.5) / 4294967296;
-}
-const rand = rng(7);
-const gauss = () => Math.sqrt(-2 * Math.log(rand())) * Math.cos(2 * Math.PI * rand());
+const rng = createRng(7);
+const gauss = rng.normal;
 
 const axis = Array.from({ length: P }, (_, j) => 1000 + j * 0.5);
 const band = (c: number, w: number) => axis.map((x) => Math.exp(-(((x - c) / w) ** 2)));

@@ -124,9 +124,17 @@ describe('model versions', () => {
 		const { material } = await materialWithLibrary();
 		// range outside the data passes the recipe parser but not the common-axis check
 		await expect(versions.createBuild(chemist.actor, material.id, { recipe: 'range(900,1000),center' }, { inline: true })).rejects.toMatchObject({ message: expect.stringMatching(/outside the range/) });
-		const v = await versions.get((await versions.createBuild(chemist.actor, material.id, { recipe: 'savgol(5,2,0),center', components: 9, folds: 2 }, { inline: true })).id);
-		expect(['draft', 'failed']).toContain(v.state);
-		if (v.state === 'failed') expect(v.error).toBeTruthy();
+		// A version the engine must refuse, as if its parameters had been stored before the pre-checks existed: the job
+		// body records the engine's reason and the failure in the audit trail (it never throws).
+		const built = await versions.createBuild(chemist.actor, material.id, { recipe: 'center', folds: 2 }, { inline: true });
+		await sequelize().query(`UPDATE model_versions SET state = 'building', params = jsonb_set(params, '{recipe}', '"range(100,200),center"') WHERE id = :id`, { replacements: { id: built.id } });
+		await versions.runBuild(built.id);
+		const v = await versions.get(built.id);
+		expect(v.state).toBe('failed');
+		expect(v.error).toMatch(/range/i);
+		expect(v.progress.stage).toBe('failed');
+		const events = await audit.list({ entity: 'model_version', action: 'model.build-failed', pageSize: 500 });
+		expect(events.rows.find((e) => String(e.entityId) === String(built.id))).toMatchObject({ after: { error: v.error } });
 	});
 });
 

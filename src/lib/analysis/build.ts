@@ -14,6 +14,7 @@ import { alphaRefusal } from './alpha-bounds';
 import { ENGINE_VERSION, SCHEMA_VERSION, type DistanceSet, type ModelArtefact, type ModelJson } from './artefact';
 import { labelPath } from './tree';
 import { buildSplits, type NodeOptions } from './tree-build';
+import { BUILD_DEFAULTS } from './defaults';
 
 export interface SpectrumInput {
 	id: string;
@@ -281,16 +282,16 @@ function fitModel(rows: Float64Array[], ids: string[], groups: (string | null | 
 /** Builds the family model and one class model per class from labelled training spectra. */
 export function buildModel(training: TrainingSpectrum[], options: BuildOptions = {}): ModelArtefact {
 	const {
-		recipe = 'center',
-		components = 'auto',
-		familyComponents = 'auto',
+		recipe = BUILD_DEFAULTS.recipe,
+		components = BUILD_DEFAULTS.components,
+		familyComponents = BUILD_DEFAULTS.familyComponents,
 		maxComponents,
-		alpha = 0.05,
-		familyAlpha = 0.01,
-		gamma = 0.01,
-		limits = 'cv',
-		folds = 7,
-		speLimit = 'moments',
+		alpha = BUILD_DEFAULTS.alpha,
+		familyAlpha = BUILD_DEFAULTS.familyAlpha,
+		gamma = BUILD_DEFAULTS.gamma,
+		limits = BUILD_DEFAULTS.limits,
+		folds = BUILD_DEFAULTS.folds,
+		speLimit = BUILD_DEFAULTS.speLimit,
 		estimator = 'moments',
 		meta = {},
 		onProgress

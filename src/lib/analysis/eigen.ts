@@ -1,4 +1,5 @@
 import { AnalysisError } from './errors';
+import { mulberry32 } from './prng';
 
 /** √(a² + b²) without the cost of Math.hypot; falls back to it only where squaring could over- or underflow. */
 function hypot2(a: number, b: number): number {
@@ -106,15 +107,6 @@ export function tridiagonalEigen(
 	return { values: d, vectors: V };
 }
 
-/** Deterministic start vectors: results must not depend on Math.random. */
-function lcg(seed: number): () => number {
-	let s = seed >>> 0;
-	return () => {
-		s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-		return s / 4294967296 - 0.5;
-	};
-}
-
 /** out = A·x for symmetric row-major A, four rows per sweep so each x_j is loaded once for four products. */
 function symMatVec(A: Float64Array, m: number, x: Float64Array, out: Float64Array): void {
 	let i = 0;
@@ -220,7 +212,9 @@ export function topEigen(A: Float64Array, m: number, k: number, options: { tol?:
 	let anorm = 0;
 	for (let i = 0; i < m * m; i++) anorm += A[i] * A[i];
 	anorm = Math.sqrt(anorm);
-	const rand = lcg(20240917 + m);
+	// Deterministic start vectors (results must not depend on Math.random), centred on 0.
+	const uniform = mulberry32(20240917 + m);
+	const rand = () => uniform() - 0.5;
 	const Q = new Float64Array(m * m);
 	const alpha: number[] = [];
 	const beta: number[] = [];

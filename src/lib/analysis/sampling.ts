@@ -5,6 +5,8 @@
 //   r-plan  r = ⌈1.5·√N⌉      rounded up; non-uniform or poorly known material: identity-test EVERY container, then
 //                             r containers chosen at random are tested individually (the other tests)
 // Every count is capped at N. Only the n-plan identity-tests fewer than N containers.
+import { mulberry32 } from './prng';
+export { mulberry32 };
 
 export type PlanKind = 'every' | 'n' | 'p' | 'r';
 export const PLAN_KINDS: PlanKind[] = ['every', 'n', 'p', 'r'];
@@ -64,21 +66,6 @@ export function pPlan(N: number): number {
 export function rPlan(N: number): number {
 	checkN(N);
 	return Math.min(N, ceilSafe(1.5 * Math.sqrt(N)));
-}
-
-/**
- * mulberry32 (Tommy Ettinger, public domain): a 32-bit seeded generator, uniform on [0, 1).
- * Used only to pick containers reproducibly from a recorded seed, never for statistics.
- */
-export function mulberry32(seed: number): () => number {
-	let a = seed >>> 0;
-	return () => {
-		a = (a + 0x6d2b79f5) >>> 0;
-		let t = a;
-		t = Math.imul(t ^ (t >>> 15), t | 1);
-		t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-		return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-	};
 }
 
 /** `count` distinct containers of 1..N chosen by a partial Fisher–Yates shuffle driven by mulberry32(seed); ascending. */

@@ -7,11 +7,13 @@ import { makeProjectionModel, project, scoresInto } from '../../../src/lib/analy
 import { gramRows, pca } from '../../../src/lib/analysis/pca';
 import { topEigen } from '../../../src/lib/analysis/eigen';
 import { cumulativeLeverage, ekfAccumulate, ekfAccumulateWith, ekfMargins } from '../../../src/lib/analysis/ekf';
+import { mulberry32 } from '../../../src/lib/analysis/prng';
 import { centred, gasoline, gasolineTraining, relErr } from './fixtures';
 
-function lcg(seed: number): () => number {
-	let s = seed >>> 0;
-	return () => ((s = (Math.imul(s, 1664525) + 1013904223) >>> 0) + 0.5) / 4294967296 - 0.5;
+/** Uniform on [−0.5, 0.5) from the project's one seeded generator. */
+function centredUniform(seed: number): () => number {
+	const u = mulberry32(seed);
+	return () => u() - 0.5;
 }
 
 describe('projection fast path (SPE = ‖z‖² − Σt², methods §6)', () => {
@@ -38,7 +40,7 @@ describe('projection fast path (SPE = ‖z‖² − Σt², methods §6)', () => 
 	});
 	test('scores from the blocked kernel (8, 4, 2, 1 components per sweep) equal plain dot products, with and without scaling', () => {
 		const p = 37;
-		const r = lcg(11);
+		const r = centredUniform(11);
 		for (const A of [1, 2, 3, 4, 5, 7, 8, 9, 12, 13, 17]) {
 			const L = Float64Array.from({ length: A * p }, r);
 			const mean = Float64Array.from({ length: p }, r);
@@ -66,7 +68,7 @@ describe('projection fast path (SPE = ‖z‖² − Σt², methods §6)', () => 
 
 describe('blocked kernels', () => {
 	test('gramRows equals the plain XXᵀ for every remainder of the 3×3 blocking', () => {
-		const r = lcg(5);
+		const r = centredUniform(5);
 		for (const n of [1, 2, 3, 4, 5, 6, 7, 11]) {
 			const p = 9;
 			const data = Float64Array.from({ length: n * p }, r);
@@ -120,7 +122,7 @@ describe('Lanczos on a cluster of near-equal eigenvalues', () => {
 		// X = U diag(s) Vᵀ with a tight cluster in s, then G = XXᵀ (the case that needs many Lanczos steps)
 		const n = 80;
 		const p = 120;
-		const r = lcg(3);
+		const r = centredUniform(3);
 		const s = Array.from({ length: n }, (_, i) => (i < 7 ? 10 / (i + 1) : i < 12 ? 0.5 * (1 + 1e-4 * i) : 0.3 / (1 + 0.05 * i)));
 		const B = Matrix.from1DArray(n, p, Array.from({ length: n * p }, r));
 		const data = new Float64Array(n * p);

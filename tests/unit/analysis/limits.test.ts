@@ -3,6 +3,7 @@ import { t2LimitNew, t2LimitTraining } from '../../../src/lib/analysis/limits/ho
 import { speBox, speJacksonMudholkar, speMoments } from '../../../src/lib/analysis/limits/spe';
 import { cCritical, cOutlier, dofMoments, dofRobust, robustFromMedianIqr, ddStatistic } from '../../../src/lib/analysis/limits/ddsimca';
 import { chi2Inv, normalInv } from '../../../src/lib/analysis/quantiles';
+import { createRng } from '../../../src/lib/analysis/prng';
 
 describe('Hotelling T² limits', () => {
 	// NIST/SEMATECH e-Handbook §6.5.4.3 (Phase II, new observation) and Tracy, Young & Mason 1992
@@ -47,9 +48,7 @@ describe('SPE limits', () => {
 		const lam = Array.from({ length: 30 }, (_, j) => 0.8 ** j);
 		const th = [1, 2, 3].map((i) => lam.reduce((s, l) => s + l ** i, 0));
 		const lim = speJacksonMudholkar(th[0], th[1], th[2], 0.05);
-		let seed = 12345;
-		const u = () => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) + 0.5) / 4294967296;
-		const gauss = () => Math.sqrt(-2 * Math.log(u())) * Math.cos(2 * Math.PI * u());
+		const gauss = createRng(12345).normal;
 		let over = 0;
 		const N = 20000;
 		for (let r = 0; r < N; r++) {

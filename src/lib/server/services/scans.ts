@@ -81,15 +81,6 @@ export async function approvedModel(materialId: number): Promise<ApprovedModel |
 	return rows[0] ? preparedVersion(Number(rows[0].id)) : null;
 }
 
-/**
- * The verdict and statistics exactly as `lotgate screen` computes them. Per-variable contributions are not stored:
- * they cost more than the rest of a scan together, and they follow from the stored spectrum and the same artefact,
- * so `detail()` recomputes them when the evidence panel asks for one scan.
- */
-function screenStored(prep: PreparedArtefact, spectrum: Parameters<typeof screen>[1]): ScreenResult {
-	return screen(prep, spectrum);
-}
-
 function requireScanner(actor: Actor) {
 	if (actor.instrumentId == null && !hasRole(actor, can.uploadScans)) throw forbidden('Only a technician, an admin or an instrument token adds scans');
 }
@@ -181,7 +172,6 @@ async function ingestForScan(tx: Transaction, actor: Actor, lotId: number, file:
 	return { ok: true, spectrum: { id: s.id, sha256: s.sha256, title: s.title, technique: s.technique, axis: row.axis.map(nan), values: row.intensities.map(nan), unit: row.unit, yUnit: row.y_unit } };
 }
 
-const techniqueName = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
 
 /** Adds one scan of one container and screens it; answers the stored scan and the lot's new status. */
 export async function add(actor: Actor, lotRef: number | string, file: ScanFile) {
@@ -238,10 +228,10 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 			stored = { id: s.id, sha256: s.sha256, title: s.title };
 			if (instrument && instrument.technique !== material.technique) {
 				verdict = 'unusable';
-				reason = `wrong technique: instrument ${instrument.name} measures ${techniqueName(instrument.technique)}, but ${material.code} is identified by ${techniqueName(material.technique)}`;
+				reason = `wrong technique: instrument ${instrument.name} measures ${instrument.technique}, but ${material.code} is identified by ${material.technique}`;
 			} else if (s.technique && s.technique !== material.technique) {
 				verdict = 'unusable';
-				reason = `wrong technique: the file is a ${techniqueName(s.technique)} spectrum, but ${material.code} is identified by ${techniqueName(material.technique)}`;
+				reason = `wrong technique: the file is a ${s.technique} spectrum, but ${material.code} is identified by ${material.technique}`;
 			} else if ((gateReason = await instrumentGate.screeningBlock(tx, instrument?.id))) {
 				verdict = 'unusable';
 				reason = gateReason;
@@ -257,7 +247,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 				verdict = 'unusable';
 				reason = gateReason;
 			} else {
-				result = screenStored(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
+				result = screen(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
 				if (result.verdict === 'not-this-material') result = { ...result, identification: await identification.forSpectrum(s, others, material.id, tx) } as ScreenResult;
 				verdict = result.verdict;
 				reason = result.reason;
@@ -400,7 +390,7 @@ export async function rescreen(actor: Actor, lotRef: number | string, reason = '
 				continue;
 			}
 			const spectrum = { id: String(p.spectrum_id), axis: p.axis, values: p.intensities, unit: p.unit };
-			let result = screenStored(model.prep, spectrum);
+			let result = screen(model.prep, spectrum);
 			if (result.verdict === 'not-this-material') result = { ...result, identification: await identification.forSpectrum(spectrum, others, preview.material_id, tx) } as ScreenResult;
 			const scan = await insertScan(tx, actor, {
 				lotId,
@@ -459,7 +449,8 @@ export async function detail(lotRef: number | string, scanId: number) {
 	};
 }
 
-const finiteOrNull = (x: number) => (Number.isFinite(x) ? x : 0);
+// JSON has no NaN or Infinity: a contribution that is not finite is sent as 0.
+const zeroIfNotFinite = (x: number) => (Number.isFinite(x) ? x : 0);
 function plainContributions(c: { t2: ArrayLike<number>; spe: ArrayLike<number> }) {
-	return { t2: Array.from(c.t2, finiteOrNull), spe: Array.from(c.spe, finiteOrNull) };
+	return { t2: Array.from(c.t2, zeroIfNotFinite), spe: Array.from(c.spe, zeroIfNotFinite) };
 }

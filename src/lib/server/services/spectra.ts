@@ -119,7 +119,6 @@ export function float8ArrayBinary(values: ArrayLike<number>): Buffer {
 	return buf;
 }
 
-const techniqueWord = (t: string) => (t === 'mid-IR' ? 'mid-IR' : t);
 
 function mayUpload(actor: Actor) {
 	return actor.instrumentId != null || hasRole(actor, can.uploadSpectra);
@@ -207,7 +206,7 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 			throw new IntakeError(
 				400,
 				'wrong-technique',
-				`${fileName}: the file is a ${techniqueWord(other.technique!)} spectrum, but instrument ${instrument.name} measures ${techniqueWord(instrument.technique)}`,
+				`${fileName}: the file is a ${other.technique!} spectrum, but instrument ${instrument.name} measures ${instrument.technique}`,
 				fileName,
 				other.line
 			);
@@ -306,9 +305,6 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 		throw e;
 	}
 }
-
-/** The same, in the argument order the library service bridges to. */
-export const ingestInTransaction = (tx: Transaction, actor: Actor, input: IngestInput) => ingestFile(actor, input, tx);
 
 export interface BatchFile {
 	name: string;

@@ -4,6 +4,7 @@ import { nameText, proseText } from '../../../validation/text';
 import { parseRecipe } from '../../../analysis';
 import { alphaRefusal } from '../../../analysis/alpha-bounds';
 import { treeSpecSchema } from '../../../validation/tree';
+import { BUILD_DEFAULTS } from '../../../analysis/defaults';
 
 export const APPROVAL_MEANING = 'approved for screening';
 
@@ -44,7 +45,7 @@ export const buildParamsSchema = z.object({
 	recipe: z
 		.string()
 		.trim()
-		.default('center')
+		.default(BUILD_DEFAULTS.recipe)
 		.superRefine((text, ctx) => {
 			try {
 				parseRecipe(text);
@@ -52,15 +53,15 @@ export const buildParamsSchema = z.object({
 				ctx.addIssue({ code: 'custom', message: (e as Error).message });
 			}
 		}),
-	components: componentsInput.default('auto'),
-	familyComponents: componentsInput.default('auto'),
-	alpha: z.coerce.number().superRefine(alphaIssue('class')).default(0.05),
-	familyAlpha: z.coerce.number().superRefine(alphaIssue('family')).default(0.01),
-	gamma: z.coerce.number().gt(0, 'γ must be above 0').lt(0.5, 'γ must be below 0.5').default(0.01),
-	limits: z.enum(['cv', 'training'], { errorMap: () => ({ message: 'Limits come from cv or training' }) }).default('cv'),
-	folds: z.coerce.number().int().min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
-	groupBy: z.enum(GROUPINGS, { errorMap: () => ({ message: 'Group folds by supplier_lot, supplier, instrument or none' }) }).default('supplier_lot'),
-	speLimit: z.enum(['jackson-mudholkar', 'box', 'moments'], { errorMap: () => ({ message: 'SPE limit is jackson-mudholkar, box or moments' }) }).default('moments'),
+	components: componentsInput.default(BUILD_DEFAULTS.components),
+	familyComponents: componentsInput.default(BUILD_DEFAULTS.familyComponents),
+	alpha: z.coerce.number().superRefine(alphaIssue('class')).default(BUILD_DEFAULTS.alpha),
+	familyAlpha: z.coerce.number().superRefine(alphaIssue('family')).default(BUILD_DEFAULTS.familyAlpha),
+	gamma: z.coerce.number().gt(0, 'γ must be above 0').lt(0.5, 'γ must be below 0.5').default(BUILD_DEFAULTS.gamma),
+	limits: z.enum(['cv', 'training'], { errorMap: () => ({ message: 'Limits come from cv or training' }) }).default(BUILD_DEFAULTS.limits),
+	folds: z.coerce.number().int().min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(BUILD_DEFAULTS.folds),
+	groupBy: z.enum(GROUPINGS, { errorMap: () => ({ message: 'Group folds by supplier_lot, supplier, instrument or none' }) }).default(BUILD_DEFAULTS.groupBy),
+	speLimit: z.enum(['jackson-mudholkar', 'box', 'moments'], { errorMap: () => ({ message: 'SPE limit is jackson-mudholkar, box or moments' }) }).default(BUILD_DEFAULTS.speLimit),
 	genuine: nameText(z.string().trim().toLowerCase()).optional(),
 	/** The model tree as edited (nodes, kinds, split methods, per-node recipes, library labels); absent: the tree the labels give. */
 	tree: treeSpecSchema.optional(),

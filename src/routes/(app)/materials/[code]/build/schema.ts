@@ -4,12 +4,13 @@ import { proseText } from '$lib/validation/text';
 import { parseRecipe } from '$lib/analysis/preprocess/recipe';
 import { alphaRefusal } from '$lib/analysis/alpha-bounds';
 import { parseTreeText } from '$lib/validation/tree';
+import { BUILD_DEFAULTS } from '$lib/analysis/defaults';
 
 const componentsField = z
 	.string()
 	.trim()
 	.toLowerCase()
-	.default('auto')
+	.default(BUILD_DEFAULTS.components)
 	.refine((v) => v === 'auto' || (/^\d+$/.test(v) && Number(v) >= 1 && Number(v) <= 30), 'Use auto, or a whole number from 1 to 30');
 const probability = (what: string) => z.coerce.number({ invalid_type_error: `${what} must be a number` }).gt(0, `${what} must be above 0`).lt(0.5, `${what} must be below 0.5`);
 
@@ -22,7 +23,7 @@ export const buildFormSchema = z.object({
 	recipe: z
 		.string()
 		.trim()
-		.default('snv,center')
+		.default(BUILD_DEFAULTS.recipe)
 		.superRefine((text, ctx) => {
 			try {
 				parseRecipe(text);
@@ -32,13 +33,13 @@ export const buildFormSchema = z.object({
 		}),
 	familyComponents: componentsField,
 	components: componentsField,
-	alpha: probability('α').superRefine(alphaBound('class')).default(0.05),
-	familyAlpha: probability('Family α').superRefine(alphaBound('family')).default(0.01),
-	gamma: probability('γ').default(0.01),
-	limits: z.enum(['cv', 'training']).default('cv'),
-	folds: z.coerce.number().int('Folds must be a whole number').min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(7),
-	groupBy: z.enum(['supplier_lot', 'supplier', 'instrument', 'none']).default('supplier_lot'),
-	speLimit: z.enum(['moments', 'jackson-mudholkar', 'box']).default('moments'),
+	alpha: probability('α').superRefine(alphaBound('class')).default(BUILD_DEFAULTS.alpha),
+	familyAlpha: probability('Family α').superRefine(alphaBound('family')).default(BUILD_DEFAULTS.familyAlpha),
+	gamma: probability('γ').default(BUILD_DEFAULTS.gamma),
+	limits: z.enum(['cv', 'training']).default(BUILD_DEFAULTS.limits),
+	folds: z.coerce.number().int('Folds must be a whole number').min(2, 'At least 2 folds').max(20, 'At most 20 folds').default(BUILD_DEFAULTS.folds),
+	groupBy: z.enum(['supplier_lot', 'supplier', 'instrument', 'none']).default(BUILD_DEFAULTS.groupBy),
+	speLimit: z.enum(['moments', 'jackson-mudholkar', 'box']).default(BUILD_DEFAULTS.speLimit),
 	/** The model tree as JSON text ('' = the tree that follows from the library labels); the service checks its rules. */
 	tree: z
 		.string()
