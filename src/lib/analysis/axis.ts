@@ -249,7 +249,10 @@ export function defaultAxis(
 		hi = Math.min(hi, mx);
 	}
 	if (request) {
-		if (request.from < lo || request.to > hi)
+		// the same edge allowance as resampling (1 % of a step, or 10⁻⁹ of the span without a step): a file whose axis
+		// was rounded on export still covers a declared edge
+		const tol = request.step !== undefined ? EDGE_STEP_FRACTION * request.step : 1e-9 * Math.abs(request.to - request.from);
+		if (request.from < lo - tol || request.to > hi + tol)
 			throw new AnalysisError('range-not-covered', `requested axis ${request.from}–${request.to} ${unit} is outside the range all training spectra cover (${fmt(lo)}–${fmt(hi)} ${unit})`);
 		lo = request.from;
 		hi = request.to;

@@ -144,14 +144,36 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 			}
 		}
 		const summary = countBy(added, (a) => `${a.role}:${a.label}`);
+		// The declared axis (issue 12 §3): the first upload of a material without one declares it; every spectrum is
+		// checked against it, and one that does not cover it is named here and left out of builds with that reason.
+		const grids = added.length
+			? await sequelize().query<{ id: number; unit: 'nm' | 'cm-1' | 'um'; axis: number[] }>('SELECT id, unit, axis FROM spectra WHERE id IN (:ids)', {
+					replacements: { ids: added.map((a) => a.spectrumId) },
+					type: QueryTypes.SELECT,
+					transaction: tx
+				})
+			: [];
+		const gridOf = new Map(grids.map((g) => [Number(g.id), g]));
+		let axis = (await materials.get(material.id)).axis;
+		if (!axis && added.length) {
+			const g = gridOf.get(added[0].spectrumId)!;
+			axis = await materials.declareAxisFromFirstUpload(tx, actor, material.id, { x: g.axis.map(Number), unit: g.unit, fileName: added[0].fileName });
+		}
+		const outsideAxis = axis
+			? added.flatMap((a) => {
+					const g = gridOf.get(a.spectrumId)!;
+					const c = materials.coversAxis(axis!, g.axis.map(Number), g.unit);
+					return c.covers ? [] : [{ entryId: a.id, fileName: a.fileName, reason: `does not cover the declared axis ${materials.axisText(axis!)}: ${c.missing}` }];
+				})
+			: [];
 		await audit.record(tx, actor, {
 			action: 'library.spectra-added',
 			entity: 'material',
 			entityId: material.id,
-			after: { files: files.map((f) => f.name), added: added.length, byRoleAndLabel: summary },
+			after: { files: files.map((f) => f.name), added: added.length, byRoleAndLabel: summary, ...(outsideAxis.length ? { outsideAxis } : {}) },
 			reason: `library upload of ${added.length} spectra`
 		});
-		return { materialId: material.id, added: added.length, entries: added, byRoleAndLabel: summary };
+		return { materialId: material.id, added: added.length, entries: added, byRoleAndLabel: summary, axis, outsideAxis };
 	});
 }
 

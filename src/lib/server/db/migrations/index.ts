@@ -14,6 +14,7 @@ import auditorRole from './060-auditor-role';
 import supplierDrift from './080-supplier-drift';
 import instrumentChecks from './081-instrument-checks';
 import modelTransfer from './150-model-transfer';
+import declaredAxis from './120-declared-axis';
 
 export interface Migration {
 	name: string;
@@ -22,4 +23,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer, declaredAxis];

@@ -44,7 +44,20 @@ export class Material extends Model {
 	/** Replicate scans per container (1–5): a container is genuine only when all are genuine. */
 	declare replicates: number;
 	declare recipients: string[];
+	/** The declared measurement axis (issue 12 §3); null until declared or taken from the first library upload. */
+	declare axis: DeclaredAxis | null;
 	declare createdAt: Date;
+}
+
+export interface DeclaredAxis {
+	unit: 'nm' | 'cm-1' | 'um';
+	from: number;
+	to: number;
+	/** Uniform spacing of the model grid; null keeps the first training spectrum's own points. */
+	step: number | null;
+	source: 'declared' | 'first-upload';
+	setAt: string;
+	reason: string | null;
 }
 
 export class MaterialClass extends Model {
@@ -169,6 +182,7 @@ export function defineModels(sequelize: Sequelize) {
 			samplingJustification: { type: TEXT },
 			replicates: { type: INTEGER, allowNull: false, defaultValue: 1 },
 			recipients: { type: ARRAY(TEXT), allowNull: false, defaultValue: [] },
+			axis: { type: JSONB },
 			createdAt: createdAt()
 		},
 		{ ...common, tableName: 'materials', modelName: 'Material' }

@@ -76,6 +76,28 @@ export async function checkTrainingSet(material: { id: number; code: string }, p
 	const tree = treePlan(params, perLabel, genuineClass.name);
 	if (!tree.plan) throw invalid(`Cannot build ${material.code} with this tree: ${tree.problems.join('; ')}.`, params.tree ? 'tree' : 'training');
 
+	const declared = (await materials.get(material.id)).axis;
+	if (declared) {
+		// The declared axis is the build's axis; spectra that do not cover it are left out at build time (named in the
+		// build summary). Refuse only when too few would remain, and a recipe range outside the declared axis.
+		const grids = await sequelize().query<{ id: number; label: string; unit: 'nm' | 'cm-1' | 'um'; axis: number[] }>(
+			'SELECT e.id, e.label, sp.unit, sp.axis FROM library_entries e JOIN spectra sp ON sp.id = e.spectrum_id WHERE e.id IN (:ids)',
+			{ replacements: { ids: entries.map((e) => e.id) }, type: QueryTypes.SELECT }
+		);
+		const covering = grids.filter((g) => materials.coversAxis(declared, g.axis.map(Number), g.unit).covers);
+		const left = grids.length - covering.length;
+		for (const c of classes) {
+			const need = minimumFor(params.components);
+			const have = covering.filter((g) => g.label === c.name).length;
+			if (have < need && (byClass.get(c.name) ?? 0) >= need)
+				throw invalid(`Cannot build ${material.code}: class ${c.name} keeps ${have} training spectra that cover the declared axis ${materials.axisText(declared)}, needs at least ${need} (${left} spectra do not cover it)`, 'training');
+		}
+		for (const range of parseRecipe(params.recipe).filter((st) => st.op === 'range')) {
+			if (range.op === 'range' && (Math.min(range.from, range.to) < declared.from - 1e-9 || Math.max(range.from, range.to) > declared.to + 1e-9))
+				throw invalid(`The recipe's range(${range.from},${range.to}) is outside the declared axis of ${material.code} (${materials.axisText(declared)})`, 'recipe');
+		}
+		return;
+	}
 	// A common axis exists only if every spectrum covers one shared interval (after unit conversion).
 	const axes = await sequelize().query<{ id: number; unit: 'nm' | 'cm-1' | 'um'; lo: number; hi: number; first: number; last: number; points: number }>(
 		`SELECT e.id, sp.unit, sp.axis[1] AS first, sp.axis[array_length(sp.axis,1)] AS last, sp.points
@@ -230,7 +252,18 @@ export async function runBuild(versionId: number): Promise<void> {
 		// One read of the whole library: the training set, and the held-out spectra the evidence screens.
 		const everything = await library.withSpectra((await library.entriesOf(v.material_id, ['training', 'test', 'challenge'])).map((e) => e.id));
 		const memberIds = new Set(members.map((m) => m.entryId));
-		const training = everything.filter((e) => memberIds.has(e.id));
+		const members_ = everything.filter((e) => memberIds.has(e.id));
+		// The declared axis (issue 12 §3): the build uses it and never narrows it; a training spectrum that does not
+		// cover it is left out of this build with the reason, recorded in the figures and the build's audit event.
+		const declared = material.axis;
+		const axisExcluded: { entryId: number; reason: string }[] = [];
+		const training = declared
+			? members_.filter((e) => {
+					const c = materials.coversAxis(declared, e.axis, e.unit);
+					if (!c.covers) axisExcluded.push({ entryId: e.id, reason: `does not cover the declared axis ${materials.axisText(declared)}: ${c.missing}` });
+					return c.covers;
+				})
+			: members_;
 		const params = v.params;
 		const groupKey = params.groupBy;
 		const groupOf = (e: library.LibraryRow) => (groupKey === 'supplier_lot' ? e.supplierLot : groupKey === 'supplier' ? e.supplier : groupKey === 'instrument' ? e.instrument : null);
@@ -254,6 +287,7 @@ export async function runBuild(versionId: number): Promise<void> {
 				speLimit: params.speLimit,
 				genuine: plan.genuine,
 				nodes: plan.nodes,
+				...(declared ? { axis: { unit: declared.unit, from: declared.from, to: declared.to, ...(declared.step ? { step: declared.step } : {}) } } : {}),
 				meta: { material: material.code, version: String(v.version), versionId: String(v.id), technique: material.technique },
 				onProgress: (p: { done: number; total: number; stage: string; model: string; fold?: number; folds?: number; message: string }) => {
 					const percent = p.total ? Math.min(95, 5 + Math.round((90 * (p.done ?? 0)) / p.total)) : undefined;
@@ -265,7 +299,7 @@ export async function runBuild(versionId: number): Promise<void> {
 		const text = serializeArtefact(artefact);
 		const sha = createHash('sha256').update(text).digest('hex');
 		const evidence = modelEvidence(everything, artefact, members, classes, { classOf: plan.classOf, training: trainingRows });
-		const figures = { ...evidence.figures, buildMs: Math.round(performance.now() - started) };
+		const figures = { ...evidence.figures, buildMs: Math.round(performance.now() - started), axis: declared ? { declared, excluded: axisExcluded } : null };
 		const validation = evidence.validation;
 		await pendingWrite;
 		await transaction(async (tx) => {
@@ -289,7 +323,7 @@ export async function runBuild(versionId: number): Promise<void> {
 				action: 'model.built',
 				entity: 'model_version',
 				entityId: versionId,
-				after: { state: 'draft', artefactSha256: sha, engineVersion: artefact.engineVersion, models: figures.models.map((m) => ({ name: m.name, A: m.components, cvFalseRejectRate: m.cvFalseRejectRate })) }
+				after: { state: 'draft', artefactSha256: sha, engineVersion: artefact.engineVersion, models: figures.models.map((m) => ({ name: m.name, A: m.components, cvFalseRejectRate: m.cvFalseRejectRate })), ...(axisExcluded.length ? { axisExcluded } : {}) }
 			});
 		});
 	} catch (error) {
