@@ -88,8 +88,12 @@ export async function checkTrainingSet(material: { id: number; code: string }, p
 		const left = grids.length - covering.length;
 		for (const c of classes) {
 			const need = minimumFor(params.components);
-			const have = covering.filter((g) => g.label === c.name).length;
-			if (have < need && (byClass.get(c.name) ?? 0) >= need)
+			const classOf = (label: string) => {
+				const lc = labelClass(label);
+				return 'problem' in lc ? label : lc.className;
+			};
+			const have = covering.filter((g) => classOf(g.label) === c.name).length;
+			if (have < need && grids.filter((g) => classOf(g.label) === c.name).length >= need)
 				throw invalid(`Cannot build ${material.code}: class ${c.name} keeps ${have} training spectra that cover the declared axis ${materials.axisText(declared)}, needs at least ${need} (${left} spectra do not cover it)`, 'training');
 		}
 		for (const range of parseRecipe(params.recipe).filter((st) => st.op === 'range')) {
