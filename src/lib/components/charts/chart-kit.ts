@@ -1,5 +1,6 @@
 // Shared pieces of the evidence plots: group colours AND shapes (never colour alone), exports, and metadata grouping.
 import { toCsv } from '$lib/csv';
+import { decadeTicks, formatDecade, isDecade, preferLogAxes } from '$lib/layout/log-axes';
 
 /** Colour-blind-safe palette (Okabe–Ito order), paired with a distinct point shape per group. */
 export const PALETTE = ['#0072B2', '#D55E00', '#009E73', '#CC79A7', '#E69F00', '#56B4E9', '#000000', '#8C6D31', '#7F3C8D', '#3969AC'];
@@ -24,15 +25,16 @@ export interface Group<T> {
 	items: T[];
 }
 
-/** Splits items by one metadata field; the order is stable (sorted labels, "—" for missing last). */
+/** Splits items by one metadata field; the order is stable (sorted labels, "no <field>" for missing last), every group named. */
 export function groupBy<T extends { id: string }>(items: T[], meta: PointMeta, key: string | null | undefined): Group<T>[] {
 	const buckets = new Map<string, T[]>();
+	const missing = `no ${key}`;
 	for (const item of items) {
-		const label = key ? String(meta[item.id]?.[key] ?? '') || '—' : 'all';
+		const label = key ? String(meta[item.id]?.[key] ?? '') || missing : 'all';
 		if (!buckets.has(label)) buckets.set(label, []);
 		buckets.get(label)!.push(item);
 	}
-	const labels = [...buckets.keys()].sort((a, b) => (a === '—' ? 1 : b === '—' ? -1 : a.localeCompare(b)));
+	const labels = [...buckets.keys()].sort((a, b) => (a === missing ? 1 : b === missing ? -1 : a.localeCompare(b)));
 	return labels.map((label, i) => ({ key: label, color: PALETTE[i % PALETTE.length], shape: SHAPES[i % SHAPES.length], items: buckets.get(label)! }));
 }
 
@@ -84,19 +86,75 @@ const rawId = (ctx: Ctx) => (ctx.raw as { id?: string } | undefined)?.id ?? '';
 /**
  * Scatter datasets, one per group, each with its own colour and shape. Selected ids grow and get a dark ring;
  * while something is selected, the rest fade, so the brushed points stand out in every plot.
+ * `front`: ids drawn above everything else (the lot's own scans over a training cloud, however large the selection),
+ * never faded. Chart.js draws the lowest `order` last; a group's front points get a dataset of their own that shares
+ * its legend entry.
  */
-export function scatterDatasets<T extends { id: string; x: number; y: number }>(groups: Group<T>[], selection: Selected) {
-	return groups.map((g) => ({
+export function scatterDatasets<T extends { id: string; x: number; y: number }>(groups: Group<T>[], selection: Selected, front?: ReadonlySet<string>) {
+	const dataset = (g: Group<T>, items: T[], isFront: boolean, shadow: boolean) => ({
 		type: 'scatter' as const,
 		label: g.key,
-		data: g.items,
+		data: items,
+		order: isFront ? 0 : 1,
+		/** A front half whose group also has points behind: hidden from the legend, toggled with its group. */
+		legendShadow: shadow,
 		pointStyle: g.shape,
-		pointRadius: (ctx: Ctx) => (selection.has(rawId(ctx)) ? 8 : 4.5),
+		pointRadius: (ctx: Ctx) => (selection.has(rawId(ctx)) ? 8 : isFront ? 5.5 : 4.5),
 		pointHoverRadius: 9,
-		pointBorderWidth: (ctx: Ctx) => (selection.has(rawId(ctx)) ? 3 : 1.2),
-		borderColor: (ctx: Ctx) => (selection.has(rawId(ctx)) ? '#1c2a33' : g.color),
-		backgroundColor: (ctx: Ctx) => (selection.size && !selection.has(rawId(ctx)) ? g.color + '33' : g.color + 'aa')
-	}));
+		pointBorderWidth: (ctx: Ctx) => (selection.has(rawId(ctx)) ? 3 : isFront ? 1.6 : 1.2),
+		borderColor: (ctx: Ctx) => (selection.has(rawId(ctx)) ? '#1c2a33' : isFront ? '#1c2a33' : g.color),
+		backgroundColor: (ctx: Ctx) => (isFront ? g.color + 'ee' : selection.size && !selection.has(rawId(ctx)) ? g.color + '33' : g.color + 'aa')
+	});
+	return groups.flatMap((g) => {
+		if (!front?.size) return [dataset(g, g.items, false, false)];
+		const ahead = g.items.filter((p) => front.has(p.id));
+		const behind = g.items.filter((p) => !front.has(p.id));
+		if (!ahead.length) return [dataset(g, behind, false, false)];
+		if (!behind.length) return [dataset(g, ahead, true, false)];
+		return [dataset(g, behind, false, false), dataset(g, ahead, true, true)];
+	});
+}
+
+/** Legend options for plots with front points: one entry per group, and a click shows or hides the whole group. */
+export const groupedLegend = {
+	position: 'bottom' as const,
+	labels: { filter: (item: { datasetIndex?: number }, data: { datasets: { legendShadow?: boolean }[] }) => !data.datasets[item.datasetIndex ?? -1]?.legendShadow },
+	onClick: (_e: unknown, item: { text: string }, legend: { chart: { data: { datasets: { label?: string }[] }; isDatasetVisible(i: number): boolean; setDatasetVisibility(i: number, v: boolean): void; update(): void } }) => {
+		const { chart } = legend;
+		const indices = chart.data.datasets.map((d, i) => (d.label === item.text ? i : -1)).filter((i) => i >= 0);
+		const visible = indices.some((i) => chart.isDatasetVisible(i));
+		for (const i of indices) chart.setDatasetVisibility(i, !visible);
+		chart.update();
+	}
+};
+
+/** Does this data call for log axes by default (more than two decades)? */
+export const wantsLog = (values: number[]) => preferLogAxes(values);
+
+/**
+ * A log axis for Chart.js with ticks at whole decades only, written 0.1, 1, 10, 100 (Chart.js's own log ticks put
+ * 2…9 between them and write "100.000" in some locales); Chart.js's autoSkip then drops labels that would overlap.
+ * Within a single decade the axis keeps Chart.js's ticks, written with `fmt`.
+ */
+export function logAxis(title: string) {
+	return {
+		type: 'logarithmic' as const,
+		title: { display: true, text: title },
+		afterBuildTicks: (scale: { min: number; max: number; ticks: { value: number }[] }) => {
+			if (!(scale.min > 0 && scale.max > scale.min)) return;
+			const decades = decadeTicks(scale.min, scale.max).filter((v) => v >= scale.min * (1 - 1e-9) && v <= scale.max * (1 + 1e-9));
+			if (decades.length >= 2) scale.ticks = decades.map((value) => ({ value }));
+		},
+		ticks: {
+			autoSkip: true,
+			autoSkipPadding: 10,
+			maxRotation: 0,
+			callback: (value: number | string) => {
+				const v = Number(value);
+				return isDecade(v) ? formatDecade(v) : fmt(v, 2);
+			}
+		}
+	};
 }
 
 /** A boundary or guide drawn as a line without points, excluded from brushing. */
