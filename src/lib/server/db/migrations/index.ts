@@ -15,6 +15,7 @@ import supplierDrift from './080-supplier-drift';
 import instrumentChecks from './081-instrument-checks';
 import modelTransfer from './150-model-transfer';
 import declaredAxis from './120-declared-axis';
+import libraryGrowth from './151-library-growth';
 
 export interface Migration {
 	name: string;
@@ -23,4 +24,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer, declaredAxis];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer, declaredAxis, libraryGrowth];

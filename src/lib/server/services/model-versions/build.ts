@@ -133,10 +133,20 @@ export async function planMemberships(materialId: number, parentId: number | nul
 	const previous = parentId ? new Map((await memberships(parentId)).map((m) => [m.entryId, m])) : new Map<number, MembershipRow>();
 	const excludeNow = new Map([...pending.exclude, ...extra].map((e) => [e.entryId, e]));
 	const includeNow = new Map(pending.include.map((e) => [e.entryId, e]));
+	// Spectra a library-growth draft proposed (issue 14 §4) train only in that draft and its descendants until it is approved.
+	const provisional = new Set(
+		(
+			await sequelize().query<{ id: number }>(
+				"SELECT e.id FROM library_entries e JOIN model_versions v ON v.id = e.proposed_in WHERE e.material_id = :materialId AND v.state NOT IN ('approved','retired')",
+				{ replacements: { materialId }, type: QueryTypes.SELECT }
+			)
+		).map((r) => Number(r.id))
+	);
 	const trainingIds = new Set(training.map((t) => t.id));
 	for (const id of [...excludeNow.keys(), ...includeNow.keys()]) if (!trainingIds.has(id)) throw invalid(`Library entry ${id} is not a training spectrum of this material`, 'entryIds');
 	return training
 		.filter((t) => t.kind != null) // challenge aliens never train; training rows always carry a class
+		.filter((t) => !provisional.has(t.id) || previous.has(t.id))
 		.map((t) => {
 			const ex = excludeNow.get(t.id);
 			if (ex) return { entryId: t.id, included: false, category: ex.category, reason: ex.reason };

@@ -1,4 +1,6 @@
 // Model versions: what changed between two versions of one material.
+import { screen } from '../../../analysis';
+import { prepareStored } from '../artefact-store';
 import { invalid } from '../errors';
 import * as library from '../library';
 import * as materials from '../materials';
@@ -55,12 +57,60 @@ export async function diff(fromRef: string | number, toRef: string | number) {
 		specificityTo: vb[name]?.specificity ?? null
 	}));
 	const material = await materials.get(a.material_id);
+	const validationChange = await sameSetValidation(a, b, `${material.code} v${a.version}`, `${material.code} v${b.version}`);
 	return {
 		from: { id: a.id, version: a.version, label: `${material.code} v${a.version}`, state: a.state },
 		to: { id: b.id, version: b.version, label: `${material.code} v${b.version}`, state: b.state },
 		params,
 		training: { added, removed, excluded, reincluded },
 		models,
-		validation
+		validation,
+		validationChange
+	};
+}
+
+const verdictRate = (hits: number, n: number) => (n ? hits / n : null);
+
+/**
+ * Both versions screened on the same validation set: the material's test and challenge spectra as they are now
+ * (issue 14 §4), so a version built before the set grew is not compared on a different set. Verdict level: genuine
+ * test spectra called genuine (sensitivity) and every other held-out spectrum not called genuine (specificity).
+ */
+async function sameSetValidation(a: VersionRow, b: VersionRow, labelA: string, labelB: string) {
+	if (!a.artefact || !b.artefact) return null;
+	const pa = prepareStored(labelA, a.artefact, a.artefact_sha256);
+	const pb = prepareStored(labelB, b.artefact, b.artefact_sha256);
+	const held = await library.entriesOf(a.material_id, ['test', 'challenge']);
+	if (!held.length) return null;
+	const spectra = await library.withSpectra(held.map((e) => e.id));
+	const genuine = pb.artefact.genuine;
+	let genuineN = 0;
+	let otherN = 0;
+	const hits = { a: { sens: 0, spec: 0 }, b: { sens: 0, spec: 0 } };
+	const changed: { entryId: number; label: string; role: string; from: string; to: string }[] = [];
+	for (const e of spectra) {
+		const input = { id: String(e.id), axis: e.axis, values: e.values, unit: e.unit };
+		const va = screen(pa, input).verdict;
+		const vb = screen(pb, input).verdict;
+		if (e.label === genuine && e.role === 'test') {
+			genuineN++;
+			if (va === 'genuine') hits.a.sens++;
+			if (vb === 'genuine') hits.b.sens++;
+		} else {
+			otherN++;
+			if (va !== 'genuine') hits.a.spec++;
+			if (vb !== 'genuine') hits.b.spec++;
+		}
+		if (va !== vb) changed.push({ entryId: e.id, label: e.label, role: e.role, from: va, to: vb });
+	}
+	return {
+		spectra: spectra.length,
+		genuineTests: genuineN,
+		others: otherN,
+		sensitivityFrom: verdictRate(hits.a.sens, genuineN),
+		sensitivityTo: verdictRate(hits.b.sens, genuineN),
+		specificityFrom: verdictRate(hits.a.spec, otherN),
+		specificityTo: verdictRate(hits.b.spec, otherN),
+		changed
 	};
 }
