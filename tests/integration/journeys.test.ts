@@ -1,7 +1,7 @@
 // Journeys from the practitioners' walk-through (issue 17) against the real PostgreSQL: the second QA signature
 // (one pending release per lot, the first signer waits, home-queue keys unique), and the defaults of signed forms.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { makeUser, unique } from '../support/factories';
+import { makeUser, rootActor, unique } from '../support/factories';
 import { approvedMaterial, jcamp, type LotFixture } from '../support/lot-fixtures';
 import type { Actor } from '../../src/lib/server/services/actor';
 
@@ -244,5 +244,14 @@ describe('forms that sign or record choose nothing for the user (issue 17 item 5
 		});
 		await expect(invalidations.decide(qa1.actor, lot.id, failing.id, 'approve', { meaning: 'invalidation approved: assignable laboratory cause', reason: '', password: qa1.password })).rejects.toMatchObject({ status: 400, field: 'reason' });
 		expect((await s.lots.get(lot.id)).identity).toBe('fails');
+	});
+});
+
+describe('the approval service names a missing meaning', () => {
+	it('refuses an approval with no meaning, asking the signer to choose it', async () => {
+		const versions = await import('../../src/lib/server/services/model-versions');
+		await expect(versions.approve(qa1.actor, fx.versionId, { password: qa1.password, reason: 'fine', meaning: '' as never })).rejects.toMatchObject({
+			issues: [expect.objectContaining({ path: ['meaning'], message: 'Choose the meaning of your signature ("approved for screening")' })]
+		});
 	});
 });

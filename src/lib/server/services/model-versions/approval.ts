@@ -14,7 +14,10 @@ import { APPROVAL_MEANING } from './schema';
 import { type VersionRow } from './types';
 
 export const approvalSchema = signatures.signatureFieldsSchema.extend({
-	meaning: z.literal(APPROVAL_MEANING, { errorMap: () => ({ message: `The meaning of this signature is "${APPROVAL_MEANING}"` }) })
+	// A missing meaning is the signer's choice not yet made; any other text is not what this signature means.
+	meaning: z.literal(APPROVAL_MEANING, {
+		errorMap: (issue, ctx) => ({ message: ctx.data == null || ctx.data === '' ? `Choose the meaning of your signature ("${APPROVAL_MEANING}")` : `The meaning of this signature is "${APPROVAL_MEANING}"` })
+	})
 });
 
 /** What the approval signature binds: the version record and the artefact's hash. */
