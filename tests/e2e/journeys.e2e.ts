@@ -1,11 +1,13 @@
 // Journeys from the practitioners' walk-through (issue 17), in Debian's Chromium: the second QA signature with both
-// QA users, creating a material and a supplier through the forms. Screenshots at desktop, tablet and phone widths.
+// QA users, creating a material and a supplier through the forms, a cross-lot duplicate, an exclusion then "Build a
+// version", and what QA sees on the approval page. Screenshots at desktop, tablet and phone widths.
 import { randomBytes } from 'node:crypto';
 import pg from 'pg';
 import type { Browser, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { demoScenario } from '../../src/lib/demo';
 import { baseUrl, launchBrowser, newContext, sessionCookie, signIn } from '../support/browser';
+import { csvMatrix, standardRows } from '../support/library-fixtures';
 import { forLot } from '../support/relabel';
 import { shoot } from '../support/screens';
 
@@ -206,4 +208,83 @@ describe('evidence that cannot be reused', () => {
 		expect(errorsOf(page)).toEqual([]);
 		await page.context().close();
 	}, 300_000);
+});
+
+describe('exclusions that stick, and an approval page that shows what is signed', () => {
+	const code = `XB-${tag()}`.toUpperCase();
+	let excludedId = 0;
+	const reason = 'c/c_crit above 4 in every fold: cuvette window smudged';
+
+	async function draftOf(page: Page, version: number) {
+		await expect.poll(async () => (await db.query('SELECT v.state FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE m.code = $1 AND v.version = $2', [code, version])).rows[0]?.state, { timeout: 120_000, interval: 1000 }).toMatch(/draft|failed/);
+		const row = (await db.query('SELECT v.id, v.state, v.error FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE m.code = $1 AND v.version = $2', [code, version])).rows[0];
+		expect(row.state, row.error ?? '').toBe('draft');
+		await page.reload();
+		return Number(row.id);
+	}
+	const excludedIn = async (versionId: number) =>
+		(await db.query('SELECT library_entry_id AS id, exclusion_category AS category, exclusion_reason AS reason FROM model_memberships WHERE model_version_id = $1 AND NOT included ORDER BY 1', [versionId])).rows;
+
+	it('exclusion, then "Build a version": the excluded spectrum stays out, and coming back needs a reason', async () => {
+		const chemist = await as('chemist@demo.test');
+		const api = chemist.context().request;
+		expect((await api.post('/api/v1/materials', { data: { code, name: 'Journey lactose', technique: 'NIR' } })).status()).toBe(201);
+		for (const [name, kind] of [['genuine', 'genuine'], ['diluted', 'suspect'], ['substituted', 'suspect']]) {
+			expect((await api.post(`/api/v1/materials/${code}/classes`, { data: { name, kind, description: name } })).status()).toBe(201);
+		}
+		const upload = await api.post(`/api/v1/materials/${code}/library`, { multipart: { file: { name: 'library.csv', mimeType: 'text/csv', buffer: Buffer.from(csvMatrix(standardRows(14), 17, 200)) }, classColumn: 'class' } });
+		expect(upload.status(), await upload.text()).toBe(201);
+		expect((await api.post(`/api/v1/materials/${code}/models`, { data: { recipe: 'snv,center', folds: 4, note: 'first build' } })).status()).toBe(201);
+		await chemist.goto(`/materials/${code}/versions/1`);
+		const v1 = await draftOf(chemist, 1);
+		// QA approves v1 (through the API), so v1 screens lots and a later draft is compared with it.
+		const qaCookie = await sessionCookie(browser, 'qa@demo.test');
+		const approved = await fetch(`${baseUrl()}/api/v1/models/${code}@1/approve`, {
+			method: 'POST',
+			headers: { cookie: qaCookie, 'content-type': 'application/json', origin: baseUrl() },
+			body: JSON.stringify({ password: 'demo-lotgate', meaning: 'approved for screening', reason: 'Challenge set rejected; genuine test spectra accepted' })
+		});
+		expect(approved.status, await approved.clone().text()).toBe(200);
+
+		// Exclude one training spectrum on v1 with a category and a reason, and rebuild: v2 has one spectrum fewer.
+		await chemist.reload();
+		const first = chemist.getByTestId('members-table').locator('tbody tr').filter({ hasText: 'included' }).first();
+		excludedId = Number(await first.getAttribute('data-entry'));
+		await first.locator('input[type=checkbox]').check();
+		await chemist.getByTestId('selection-count').filter({ hasText: '1 selected' }).waitFor();
+		const exclude = chemist.getByTestId('exclude-form');
+		await exclude.getByLabel('Reason category').selectOption('statistical-outlier');
+		await exclude.getByLabel('Reason', { exact: true }).fill(reason);
+		await exclude.getByRole('button', { name: /Exclude 1 selected/ }).click();
+		await chemist.getByTestId('pending').filter({ hasText: reason }).waitFor();
+		await Promise.all([chemist.waitForURL(new RegExp(`/materials/${code}/versions/2$`)), chemist.getByRole('button', { name: 'Rebuild', exact: true }).click()]);
+		const v2 = await draftOf(chemist, 2);
+		expect(await excludedIn(v2)).toEqual([{ id: excludedId, category: 'statistical-outlier', reason }]);
+
+		// "Build a version" starts from v2: the form names it and lists the exclusion with its reason.
+		await chemist.goto(`/materials/${code}/build`);
+		await expect(chemist.getByTestId('build-basis').textContent()).resolves.toContain(`Starts from ${code} v2`);
+		const row = chemist.getByTestId('build-excluded').locator(`tr[data-entry="${excludedId}"]`);
+		await expect(row.textContent()).resolves.toContain(reason);
+		expect(await row.getByRole('checkbox').isChecked()).toBe(false);
+		await shoot(chemist, 'journeys-build-from-current-version');
+		// Ticking it without a reason is refused beside the field; nothing is built.
+		await row.getByRole('checkbox').check();
+		await chemist.getByRole('button', { name: 'Build version' }).click();
+		await chemist.getByText('Write why the ticked spectra come back').waitFor();
+		expect((await db.query('SELECT count(*)::int AS n FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE m.code = $1', [code])).rows[0].n).toBe(2);
+		// Untick it and build with α = 0.025: v3 keeps the exclusion, and its diff re-includes nothing.
+		await row.getByRole('checkbox').uncheck();
+		await chemist.getByLabel('α, class models (type-I error)').fill('0.025');
+		await Promise.all([chemist.waitForURL(new RegExp(`/materials/${code}/versions/3$`)), chemist.getByRole('button', { name: 'Build version' }).click()]);
+		const v3 = await draftOf(chemist, 3);
+		expect(await excludedIn(v3)).toEqual([{ id: excludedId, category: 'statistical-outlier', reason }]);
+		await chemist.goto(`/materials/${code}/versions/3/diff`);
+		const training = chemist.getByTestId('diff-training');
+		await training.getByText('Re-included (0)').waitFor();
+		await expect(training.textContent()).resolves.not.toContain('(empty)');
+		expect(v1).toBeLessThan(v3);
+		expect(errorsOf(chemist)).toEqual([]);
+		await chemist.context().close();
+	}, 600_000);
 });

@@ -255,3 +255,64 @@ describe('the approval service names a missing meaning', () => {
 		});
 	});
 });
+
+describe('exclusions that stick: "Build a version" starts from the current version (issue 17 item 4)', () => {
+	// Shared with the approval page test below (issue 17 item 6).
+	const built = { code: '', v1: 0, v3: 0, outlier: 0, other: 0 };
+	it('keeps every exclusion, applies the pending marks, and re-includes only on an explicit act with a reason', async () => {
+		const versions = await import('../../src/lib/server/services/model-versions');
+		const materials = await import('../../src/lib/server/services/materials');
+		const { insertLibrary, standardRows } = await import('../support/library-fixtures');
+		const { call, jsonRequest } = await import('../support/http');
+		const chemist = await makeUser(['chemometrician']);
+		const code = unique('BV').toUpperCase();
+		const m = await materials.create(rootActor, { code, name: `Build basis ${code}`, technique: 'NIR' });
+		await materials.addClass(rootActor, m.id, { name: 'genuine', kind: 'genuine', description: 'real' });
+		await materials.addClass(rootActor, m.id, { name: 'diluted', kind: 'suspect', description: 'diluted' });
+		await materials.addClass(rootActor, m.id, { name: 'substituted', kind: 'suspect', description: 'other grade' });
+		const ids = await insertLibrary(m.id, standardRows(14), 5151);
+		const [outlier, other] = ids; // the first two rows are genuine training spectra
+		const build = async (input: Record<string, unknown>, options: Parameters<typeof versions.createBuild>[3] = {}) =>
+			versions.get((await versions.createBuild(chemist.actor, m.id, { recipe: 'snv,center', folds: 5, ...input }, { inline: true, ...options })).id);
+		const excludedOf = async (id: number) => (await versions.memberships(id)).filter((x) => !x.included).map((x) => [x.entryId, x.category, x.reason]);
+
+		const v1 = await build({});
+		await versions.markExclusion(chemist.actor, v1.id, { entryIds: [outlier], category: 'statistical-outlier', reason: 'c/c_crit 4.1 in every fold' });
+		const v2 = await versions.get((await versions.rebuild(chemist.actor, v1.id, {}, { inline: true })).id);
+		expect(v2.figures?.excludedCount).toBe(1);
+
+		// The walk-through's defect: a new build from the form put the outlier back (n 119 → 120) with an empty reason.
+		await versions.markExclusion(chemist.actor, v2.id, { entryIds: [other], category: 'sample-preparation', reason: 'vial not tapped down' });
+		const v3 = await build({ alpha: 0.025 });
+		expect(v3.state, v3.error ?? '').toBe('draft');
+		expect(v3.parentId).toBe(v2.id);
+		expect(await excludedOf(v3.id)).toEqual([
+			[outlier, 'statistical-outlier', 'c/c_crit 4.1 in every fold'],
+			[other, 'sample-preparation', 'vial not tapped down']
+		]);
+		expect(v3.figures?.trainingCount).toBe(v2.figures!.trainingCount - 1);
+		expect((await versions.get(v2.id)).pending).toEqual({ exclude: [], include: [] });
+		const d23 = await versions.diff(v2.id, v3.id);
+		expect(d23.training.reincluded).toEqual([]);
+		expect(d23.training.excluded.map((e) => [e.entryId, e.reason])).toEqual([[other, 'vial not tapped down']]);
+		expect(d23.params).toEqual([{ name: 'alpha', from: 0.05, to: 0.025 }]);
+
+		// Re-inclusion needs a reason, and only an excluded spectrum can come back.
+		await expect(build({}, { reinclude: [{ entryId: outlier, reason: '' }] })).rejects.toMatchObject({ status: 400, field: 'reincludeReason' });
+		await expect(build({}, { reinclude: [{ entryId: ids[2], reason: 'it was never excluded' }] })).rejects.toMatchObject({ status: 400, field: 'reinclude', message: expect.stringContaining(`not excluded in ${code} v3`) });
+		const v4 = await build({}, { reinclude: [{ entryId: outlier, reason: 're-measured: the first scan had the lid on' }] });
+		expect(await excludedOf(v4.id)).toEqual([[other, 'sample-preparation', 'vial not tapped down']]);
+		expect((await versions.diff(v3.id, v4.id)).training.reincluded).toMatchObject([{ entryId: outlier, reason: 're-measured: the first scan had the lid on', previousReason: 'c/c_crit 4.1 in every fold' }]);
+
+		// The same through the API, and the build page shows what stays excluded.
+		const api = await import('../../src/routes/api/v1/materials/[id]/models/+server');
+		const res = await call(api.POST, jsonRequest('POST', `/api/v1/materials/${code}/models`, { recipe: 'snv,center', folds: 5, reinclude: [{ entryId: other }] }), { id: code }, chemist.actor);
+		expect(res.status).toBe(400);
+		expect(((await res.json()) as { error: { field: string } }).error.field).toBe('reincludeReason');
+		const queued = await call(api.POST, jsonRequest('POST', `/api/v1/materials/${code}/models`, { recipe: 'snv,center', folds: 5 }), { id: code }, chemist.actor);
+		expect(queued.status).toBe(201);
+		expect(await excludedOf(((await queued.json()) as { id: number }).id)).toEqual([[other, 'sample-preparation', 'vial not tapped down']]);
+		Object.assign(built, { code, v1: v1.id, v3: v3.id, outlier, other });
+	}, 240_000);
+
+});

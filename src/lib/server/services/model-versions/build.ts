@@ -2,6 +2,8 @@
 import { can } from '../../../permissions';
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
+import { z } from 'zod';
+import { proseText } from '../../../validation/text';
 import { buildModel, parseRecipe, serializeArtefact } from '../../../analysis';
 import { convertAxis } from '../../../analysis/axis';
 import { labelClass, planTree, specFromLabels, type TreePlan } from '../../../analysis/tree-spec';
@@ -16,7 +18,7 @@ import { QUEUES } from '../../jobs/queues';
 import { modelEvidence } from '../../../analysis/model-evidence';
 import { row, memberships } from './read';
 import { type ExclusionCategory, minimumFor, buildParamsSchema, type BuildParams, type BuildParamsInput } from './schema';
-import { type Pending, type Progress, type MembershipRow } from './types';
+import { type Pending, type Progress, type MembershipRow, type VersionRow } from './types';
 
 export function requireBuilder(actor: Actor) {
 	if (!hasRole(actor, can.buildModels)) throw forbidden('Only a chemometrician or an admin builds model versions');
@@ -151,7 +153,9 @@ export async function planMemberships(materialId: number, parentId: number | nul
 			const ex = excludeNow.get(t.id);
 			if (ex) return { entryId: t.id, included: false, category: ex.category, reason: ex.reason };
 			const inc = includeNow.get(t.id);
-			if (inc) return { entryId: t.id, included: true, inclusionReason: inc.reason };
+			// A spectrum comes back only by an explicit action with its reason (issue 17: a diff never shows an empty one).
+			if (inc && !inc.reason?.trim()) throw invalid(`Spectrum ${t.id} cannot come back without a reason`, 'reincludeReason');
+			if (inc) return { entryId: t.id, included: true, inclusionReason: inc.reason.trim() };
 			const prev = previous.get(t.id);
 			if (prev && !prev.included) return { entryId: t.id, included: false, category: prev.category, reason: prev.reason };
 			return { entryId: t.id, included: true, inclusionReason: prev?.inclusionReason ?? null };
@@ -205,25 +209,90 @@ export interface BuildOptions {
 	inline?: boolean;
 	/** Initial exclusions for a first build. */
 	exclude?: Pending['exclude'];
+	/** Spectra excluded in the version the build starts from that come back in this build, each with its reason. */
+	reinclude?: { entryId: number; reason: string }[];
 }
 
-/** Creates a `building` version with its training membership, then queues the build. Returns { id, jobId }. */
+/**
+ * The version a new build starts from: the material's latest version that did not fail (its parameters are the build
+ * form's starting values and its training membership, with every exclusion, carries over). Null for a first build.
+ */
+export async function buildBasis(materialId: number): Promise<Pick<VersionRow, 'id' | 'version' | 'state' | 'params' | 'pending'> | null> {
+	const rows = await sequelize().query<Pick<VersionRow, 'id' | 'version' | 'state' | 'params' | 'pending'>>(
+		"SELECT id, version, state, params, pending FROM model_versions WHERE material_id = :materialId ORDER BY (state <> 'failed') DESC, version DESC LIMIT 1",
+		{
+			replacements: { materialId },
+			type: QueryTypes.SELECT
+		}
+	);
+	return rows[0] ? { ...rows[0], id: Number(rows[0].id) } : null;
+}
+
+const reincludeSchema = z
+	.array(
+		z.object({
+			entryId: z.coerce.number({ invalid_type_error: 'Name each re-included spectrum by its entry id' }).int().positive(),
+			reason: proseText(z.string({ required_error: 'Write why the spectrum comes back' }).trim().min(3, 'Write why the spectrum comes back (at least 3 characters)').max(2000))
+		}),
+		{ invalid_type_error: 'reinclude is a list of { entryId, reason }' }
+	)
+	.max(1000)
+	.default([]);
+
+/**
+ * Creates a `building` version with its training membership, then queues the build. Returns { id, jobId }.
+ * A new build starts from the current version's membership (issue 17): its exclusions stay excluded, and the pending
+ * marks on that version are applied and cleared, as a rebuild does. A spectrum comes back only through `reinclude`,
+ * each with its reason.
+ */
 export async function createBuild(actor: Actor, materialRef: number | string, input: BuildParamsInput, options: BuildOptions = {}) {
 	requireBuilder(actor);
 	const material = await materials.get(materialRef);
 	const params = buildParamsSchema.parse(input ?? {});
 	const exclude = (options.exclude ?? []).map((e) => ({ ...e, reason: e.reason.trim() }));
 	if (exclude.some((e) => !e.reason)) throw invalid('Every exclusion needs a reason', 'reason');
-	const planned = await planMemberships(material.id, null, { exclude: [], include: [] }, exclude);
+	const parsed = reincludeSchema.safeParse(options.reinclude ?? []);
+	if (!parsed.success) throw invalid(parsed.error.issues[0].message, parsed.error.issues[0].path.includes('reason') ? 'reincludeReason' : 'reinclude');
+	const reinclude = parsed.data;
+	const basis = await buildBasis(material.id);
+	const basisLabel = basis ? `${material.code} v${basis.version}` : null;
+	let pending: Pending = { exclude: [], include: [] };
+	if (basis) {
+		const members = new Map((await memberships(basis.id)).map((m) => [m.entryId, m]));
+		const markedOut = new Set(basis.pending.exclude.map((e) => e.entryId));
+		for (const r of reinclude) {
+			const m = members.get(r.entryId);
+			if (!m || (m.included && !markedOut.has(r.entryId))) throw invalid(`Spectrum ${r.entryId} is not excluded in ${basisLabel}: only an excluded training spectrum can be re-included`, 'reinclude');
+		}
+		const back = new Set(reinclude.map((r) => r.entryId));
+		pending = {
+			exclude: basis.pending.exclude.filter((e) => !back.has(e.entryId)),
+			include: [...basis.pending.include.filter((e) => !back.has(e.entryId)), ...reinclude.filter((r) => !members.get(r.entryId)!.included)]
+		};
+	} else if (reinclude.length) throw invalid(`${material.code} has no version yet, so nothing is excluded to re-include`, 'reinclude');
+	const planned = await planMemberships(material.id, basis?.id ?? null, pending, exclude);
 	await checkTrainingSet(material, params, planned);
 	const created = await transaction(async (tx) => {
-		const v = await insertVersion(tx, actor, material.id, params, planned, null, params.note ?? null);
+		const v = await insertVersion(tx, actor, material.id, params, planned, basis?.id ?? null, params.note ?? null);
+		if (basis && (basis.pending.exclude.length || basis.pending.include.length)) {
+			await sequelize().query(`UPDATE model_versions SET pending = '{"exclude":[],"include":[]}' WHERE id = :id`, { replacements: { id: basis.id }, transaction: tx });
+		}
 		await audit.record(tx, actor, {
 			action: 'model.build-requested',
 			entity: 'model_version',
 			entityId: v.id,
-			after: { material: material.code, version: v.version, params, training: planned.filter((p) => p.included).length, excluded: planned.filter((p) => !p.included).length },
-			reason: params.note ?? 'new model version'
+			before: basis ? { basedOn: { id: Number(basis.id), version: basis.version }, pending: basis.pending } : undefined,
+			after: {
+				material: material.code,
+				version: v.version,
+				params,
+				training: planned.filter((p) => p.included).length,
+				excluded: planned.filter((p) => !p.included).length,
+				basedOn: basisLabel,
+				newlyExcluded: pending.exclude,
+				reincluded: pending.include
+			},
+			reason: params.note ?? (basisLabel ? `new model version from ${basisLabel}` : 'new model version')
 		});
 		return v;
 	});

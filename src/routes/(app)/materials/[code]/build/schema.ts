@@ -19,7 +19,7 @@ const alphaBound = (kind: 'class' | 'family') => (a: number, ctx: z.RefinementCt
 	if (refusal) ctx.addIssue({ code: 'custom', message: refusal[0].toUpperCase() + refusal.slice(1) });
 };
 
-export const buildFormSchema = z.object({
+const buildFields = z.object({
 	recipe: z
 		.string()
 		.trim()
@@ -49,14 +49,21 @@ export const buildFormSchema = z.object({
 			const { problem } = parseTreeText(text);
 			if (problem) ctx.addIssue({ code: 'custom', message: problem });
 		}),
-	note: proseText(z.string().trim().max(2000)).default('')
+	note: proseText(z.string().trim().max(2000)).default(''),
+	// Excluded spectra of the version the build starts from that come back, and why: an explicit act with a reason.
+	reinclude: z.array(z.coerce.number().int().positive()).default([]),
+	reincludeReason: proseText(z.string().trim().max(2000)).default('')
+});
+export const buildFormSchema = buildFields.superRefine((f, ctx) => {
+	if (f.reinclude.length && f.reincludeReason.length < 3) ctx.addIssue({ code: 'custom', path: ['reincludeReason'], message: 'Write why the ticked spectra come back (at least 3 characters)' });
 });
 export type BuildForm = z.infer<typeof buildFormSchema>;
 
-export const toParams = (f: BuildForm) => ({
+export const toParams = ({ reinclude: _r, reincludeReason: _why, ...f }: BuildForm) => ({
 	...f,
 	components: f.components === 'auto' ? ('auto' as const) : Number(f.components),
 	familyComponents: f.familyComponents === 'auto' ? ('auto' as const) : Number(f.familyComponents),
 	tree: parseTreeText(f.tree).tree ?? undefined,
 	note: f.note || undefined
 });
+export const toReinclude = (f: BuildForm) => f.reinclude.map((entryId) => ({ entryId, reason: f.reincludeReason }));

@@ -13,11 +13,13 @@ export const GET: RequestHandler = handler(async (event) => {
 
 /**
  * Build parameters, as `lotgate build`: { recipe, components, familyComponents, alpha, familyAlpha, gamma, limits, folds,
- * groupBy, speLimit, genuine, note }. Queues a job and answers 201 { id, jobId }; poll GET /api/v1/models/{id}.
+ * groupBy, speLimit, genuine, note }. The build starts from the material's current version with its exclusions;
+ * `reinclude: [{ entryId, reason }]` brings excluded spectra back, each with its reason. Queues a job and answers
+ * 201 { id, jobId }; poll GET /api/v1/models/{id}.
  */
 export const POST: RequestHandler = handler(async (event) => {
 	const actor = requireActor(event, can.buildModels);
-	const body = await readJson(event.request);
-	const created = await versions.createBuild(actor, event.params.id, body);
+	const { reinclude, ...body } = ((await readJson(event.request)) ?? {}) as Record<string, unknown>;
+	const created = await versions.createBuild(actor, event.params.id, body, { reinclude: reinclude as never });
 	return json(created, { status: 201 });
 });
