@@ -53,7 +53,7 @@ async function as(email: string): Promise<Page> {
 	const context = await newContext(browser);
 	const page = await context.newPage();
 	const errors: string[] = [];
-	page.on('pageerror', (e) => errors.push(e.message));
+	page.on('pageerror', (e) => errors.push(`${page.url()}: ${e.message}${process.env.LOTGATE_E2E_STACKS ? ` ${e.stack}` : ''}`));
 	(page as Page & { errors: string[] }).errors = errors;
 	await signIn(page, email);
 	return page;
@@ -287,4 +287,48 @@ describe('exclusions that stick, and an approval page that shows what is signed'
 		expect(errorsOf(chemist)).toEqual([]);
 		await chemist.context().close();
 	}, 600_000);
+
+	it('the approval page shows, above the signature, the change against the approved version, the criteria and the warnings', async () => {
+		expect(excludedId).toBeGreaterThan(0);
+		const qa = await as('qa@demo.test');
+		await qa.goto(`/materials/${code}/versions/3/approve`);
+		const summary = qa.getByTestId('approval-summary');
+		await expect(summary.getByTestId('approval-retires').textContent()).resolves.toContain(`Approving retires ${code} v1, which screens lots now`);
+		const row = summary.getByTestId('approval-excluded').locator(`tr[data-entry="${excludedId}"]`);
+		const rowText = (await row.textContent())!;
+		for (const part of [reason, 'Statistical outlier at γ', 'newly excluded']) expect(rowText).toContain(part);
+		const alpha = summary.getByTestId('approval-params').locator('tr[data-param="alpha"]');
+		await expect(alpha.textContent()).resolves.toBe('α, class models (type-I error)0.050.025');
+		expect(await summary.getByTestId('approval-params').textContent()).not.toMatch(/familyComponents|jackson-mudholkar|supplier_lot/);
+		const criteria = summary.getByTestId('approval-acceptance');
+		await expect(criteria.locator('[data-met]').getAttribute('data-met')).resolves.toMatch(/yes|no/);
+		expect(await criteria.locator('[data-criterion]').count()).toBeGreaterThanOrEqual(5);
+		await summary.getByTestId('approval-warnings').waitFor();
+
+		// Above the signature at every width, and nothing in the summary or the signature runs past a phone's edge.
+		for (const width of [1440, 768, 390]) {
+			await qa.setViewportSize({ width, height: 900 });
+			const s = (await summary.boundingBox())!;
+			const sig = (await qa.getByTestId('approval-signature').boundingBox())!;
+			expect(s.y + s.height).toBeLessThanOrEqual(sig.y);
+			const right = await qa.evaluate(() => Math.max(...['approval-summary', 'approval-signature'].map((id) => document.querySelector(`[data-testid="${id}"]`)!.getBoundingClientRect().right)));
+			expect(right).toBeLessThanOrEqual(width);
+		}
+		const overflow = await shoot(qa, 'journeys-approval-page');
+		console.log('approval page sideways overflow by width:', JSON.stringify(overflow));
+
+		const sign = qa.getByTestId('approval-signature');
+		await sign.getByLabel('Meaning of this signature').selectOption('approved for screening');
+		await sign.getByLabel('Reason').fill('One outlier excluded with its reason; α tightened; criteria met');
+		await sign.getByLabel('Your password (re-enter to sign)').fill('demo-lotgate');
+		await Promise.all([qa.waitForURL(new RegExp(`/materials/${code}/versions/3$`)), sign.getByRole('button', { name: 'Sign and approve' }).click()]);
+		const states = (await db.query('SELECT v.version, v.state FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE m.code = $1 ORDER BY v.version', [code])).rows;
+		expect(states.map((r) => [r.version, r.state])).toEqual([
+			[1, 'retired'],
+			[2, 'draft'],
+			[3, 'approved']
+		]);
+		expect(errorsOf(qa)).toEqual([]);
+		await qa.context().close();
+	}, 300_000);
 });

@@ -315,4 +315,39 @@ describe('exclusions that stick: "Build a version" starts from the current versi
 		Object.assign(built, { code, v1: v1.id, v3: v3.id, outlier, other });
 	}, 240_000);
 
+	it('the approval page shows, above the signature, the change against the approved version, the version it retires and the warnings (item 6)', async () => {
+		expect(built.v3).toBeGreaterThan(0);
+		const versions = await import('../../src/lib/server/services/model-versions');
+		const chemist = (await versions.get(built.v1)).builtBy;
+		expect(chemist.id).not.toBe(qa1.user.id);
+		await versions.approve(qa1.actor, built.v1, { password: qa1.password, meaning: versions.APPROVAL_MEANING, reason: 'challenge set rejected' });
+		const page = await import('../../src/routes/(app)/materials/[code]/versions/[version]/approve/+page.server');
+		const { call } = await import('../support/http');
+		let data: { summary: Awaited<ReturnType<typeof versions.approvalView>> } | undefined;
+		const res = await call(async (e) => ((data = (await page.load(e as never)) as never), new Response(null)), new Request(`http://127.0.0.1/materials/${built.code}/versions/3/approve`), { code: built.code, version: '3' }, qa2.actor);
+		expect(res.status).toBe(200);
+		const a = data!.summary;
+		expect(a.retires).toEqual({ label: `${built.code} v1`, version: 1 });
+		expect(a.against).toEqual({ label: `${built.code} v1`, version: 1, basis: 'approved' });
+		expect(a.excluded).toEqual([
+			expect.objectContaining({ entryId: built.outlier, category: 'Statistical outlier at γ', reason: 'c/c_crit 4.1 in every fold', isNew: true }),
+			expect.objectContaining({ entryId: built.other, category: 'Sample preparation', reason: 'vial not tapped down', isNew: true })
+		]);
+		expect(a.params).toEqual([{ name: 'alpha', label: 'α, class models (type-I error)', from: '0.05', to: '0.025' }]);
+		const genuine = a.models.find((m) => m.name === 'genuine')!;
+		expect(genuine.nTo).toBe(genuine.nFrom! - 2);
+
+		// The warnings come from the version's own figures: an engine guard and a false-reject rate above 2α.
+		const { sequelize } = await import('../../src/lib/server/db');
+		const capWarning = 'class "genuine": the suggested component count equals the cap (9): PRESS still falls there';
+		await sequelize().query(
+			`UPDATE model_versions SET figures = jsonb_set(jsonb_set(figures, '{models,1,warnings}', CAST(:w AS jsonb)), '{models,1,cvFalseRejectRate}', CAST(:r AS jsonb)) WHERE id = :id AND figures->'models'->1->>'name' = 'genuine'`,
+			{ replacements: { id: built.v3, w: JSON.stringify([capWarning]), r: String(4 / genuine.nTo) } }
+		);
+		const warned = await versions.approvalView(built.v3);
+		expect(warned.warnings.filter((w) => w.model === 'genuine').map((w) => [w.kind, w.text.slice(0, 40)])).toEqual([
+			['components-at-cap', capWarning.slice(0, 40)],
+			['high-false-reject-rate', `cross-validated false-reject rate ${((4 / genuine.nTo) * 100).toFixed(1)} %`]
+		]);
+	}, 120_000);
 });

@@ -2,6 +2,8 @@
 // and QA approval with an electronic signature. Only the single approved version of a material screens lots.
 // The public names of this service, one file per concern beside this index.
 export { approvalSchema, approve } from './approval';
+export { approvalView } from './approval-view';
+export type { ApprovalView } from './approval-view';
 export { buildBasis, createBuild, runBuild } from './build';
 export type { BuildOptions } from './build';
 export { diff } from './diff';

@@ -16,12 +16,11 @@ const approveFormSchema = signatures.signatureFieldsSchema.extend({ meaning: cho
 export const load = (async (event) => {
 	const actor = requireUser(event, can.approveModels);
 	const id = await versionIdFor(event.params);
-	const version = await versions.get(id);
-	const list = await versions.listForMaterial(version.materialId);
+	const [version, summary] = await Promise.all([versions.get(id), versions.approvalView(id)]);
 	const form = await superValidate(zod(approveFormSchema));
 	return {
 		version,
-		current: list.find((v) => v.state === 'approved') ?? null,
+		summary,
 		isBuilder: version.builtBy.id === actor.id,
 		form,
 		meaning: versions.APPROVAL_MEANING
