@@ -9,6 +9,7 @@ import { auditKey, auditKeyId, checkpointDir } from './audit-key';
 import { transaction } from './db';
 import { queueMail } from './mail';
 import * as audit from './services/audit';
+import { config } from './config';
 
 export interface Checkpoint {
 	v: 1;
@@ -57,8 +58,9 @@ export function readCheckpoints(dir = checkpointDir(), key = auditKey()): { vali
 
 /** The archive mailbox for checkpoints: LOTGATE_AUDIT_ARCHIVE, or the demo archive in demo mode, or none. */
 export function archiveAddress(): string | null {
-	if (process.env.LOTGATE_AUDIT_ARCHIVE) return process.env.LOTGATE_AUDIT_ARCHIVE;
-	return process.env.LOTGATE_DEMO === '1' ? 'audit-archive@demo.test' : null;
+	const c = config();
+	if (c.LOTGATE_AUDIT_ARCHIVE) return c.LOTGATE_AUDIT_ARCHIVE;
+	return c.LOTGATE_DEMO ? 'audit-archive@demo.test' : null;
 }
 
 let lastWritten: { seq: number; head: string } | null = null;
@@ -129,7 +131,7 @@ export async function checkpointsSettled(): Promise<void> {
 
 let timer: NodeJS.Timeout | null = null;
 /** One checkpoint at start-up, then at least hourly while the server runs. */
-export function startCheckpoints(intervalMs = Number(process.env.LOTGATE_CHECKPOINT_INTERVAL_MS ?? 3_600_000)) {
+export function startCheckpoints(intervalMs = config().LOTGATE_CHECKPOINT_INTERVAL_MS) {
 	if (timer) return;
 	checkpointSoon('server start');
 	timer = setInterval(() => writeCheckpoint({ reason: 'hourly', force: true }).catch((error) => console.error('[audit] checkpoint not written:', error?.message ?? error)), intervalMs);

@@ -3,10 +3,11 @@
 import { createHmac, randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { config } from './config';
 
 /** `.data` of the installation (where AUTH_SECRET is generated too); LOTGATE_DATA_DIR moves it. */
 export function dataDir(): string {
-	return process.env.LOTGATE_DATA_DIR || resolve(process.cwd(), '.data');
+	return config().LOTGATE_DATA_DIR || resolve(process.cwd(), '.data');
 }
 
 let cached: { source: string; key: Buffer } | null = null;
@@ -16,7 +17,7 @@ let cached: { source: string; key: Buffer } | null = null;
  * chain can then no longer be verified past the last checkpoint: back it up apart from the database.
  */
 export function auditKey(): Buffer {
-	const fromEnv = process.env.LOTGATE_AUDIT_KEY;
+	const fromEnv = config().LOTGATE_AUDIT_KEY;
 	const source = fromEnv ? `env:${fromEnv}` : `file:${dataDir()}`;
 	if (cached?.source === source) return cached.key;
 	let text = fromEnv;
@@ -38,5 +39,5 @@ export function auditKeyId(key = auditKey()): string {
 
 /** Where checkpoints are appended; put it on storage the database host cannot rewrite (see README, Security model). */
 export function checkpointDir(): string {
-	return process.env.LOTGATE_AUDIT_CHECKPOINT_DIR || resolve(dataDir(), 'audit-checkpoints');
+	return config().LOTGATE_AUDIT_CHECKPOINT_DIR || resolve(dataDir(), 'audit-checkpoints');
 }

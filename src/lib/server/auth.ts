@@ -2,6 +2,7 @@ import { SvelteKitAuth, CredentialsSignin } from '@auth/sveltekit';
 import Credentials from '@auth/sveltekit/providers/credentials';
 import { AuthenticationError, authenticate } from './services/users';
 import { LRUCache } from 'lru-cache';
+import { config } from './config';
 
 /** Idle limit: the cookie's expiry moves on with every request. */
 export const SESSION_MAX_AGE_SECONDS = 8 * 60 * 60;
@@ -39,7 +40,7 @@ class LotgateSignInError extends CredentialsSignin {
 // revocable through the per-user session version that hooks.server.ts compares on every request.
 export const { handle: authHandle, signIn, signOut } = SvelteKitAuth(async (event) => ({
 	trustHost: true,
-	secret: process.env.AUTH_SECRET,
+	secret: config().AUTH_SECRET,
 	useSecureCookies: event.url.protocol === 'https:',
 	session: { strategy: 'jwt', maxAge: SESSION_MAX_AGE_SECONDS },
 	pages: { signIn: '/login', error: '/login' },

@@ -3,8 +3,9 @@ import { error } from '@sveltejs/kit';
 import { simpleParser } from 'mailparser';
 import { QueryTypes } from 'sequelize';
 import { sequelize } from './db';
+import { config } from './config';
 
-export const inboxEnabled = () => process.env.LOTGATE_DEMO === '1' || process.env.LOTGATE_TEST === '1';
+export const inboxEnabled = () => config().LOTGATE_DEMO || config().LOTGATE_TEST;
 
 /** The inbox exists only in demo and test mode; elsewhere it answers 404 as if it were not there. */
 export function requireInbox() {

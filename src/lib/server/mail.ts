@@ -3,6 +3,7 @@
 import nodemailer, { type Transporter } from 'nodemailer';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { sequelize } from './db';
+import { config } from './config';
 
 export type MailKind = 'certificate' | 'alert' | 'audit-checkpoint';
 export type MailState = 'queued' | 'sent' | 'failed' | 'skipped';
@@ -89,7 +90,7 @@ export async function queueMail(tx: Transaction, input: OutboxInput): Promise<nu
 let cached: { url: string; transporter: Transporter } | null = null;
 
 function transporter(): Transporter {
-	const url = process.env.SMTP_URL;
+	const url = config().SMTP_URL;
 	if (!url) throw new Error('SMTP_URL is not set: no mail server to send through');
 	if (cached?.url !== url) {
 		cached = {
@@ -100,7 +101,7 @@ function transporter(): Transporter {
 	return cached.transporter;
 }
 
-export const mailFrom = () => process.env.MAIL_FROM || 'Lotgate <lotgate@lotgate.invalid>';
+export const mailFrom = () => config().MAIL_FROM;
 
 interface OutboxRow {
 	id: number;

@@ -4,6 +4,7 @@
 import { startCheckpoints, stopCheckpoints } from './audit-checkpoint';
 import { closeDatabase, databaseUrl } from './db';
 import { startWorkers, stopJobs } from './jobs';
+import { config } from './config';
 
 /** Starts working the queues; resolves once the workers are polling. Retries while the database is unreachable. */
 export async function runWorker(options: { log?: (message: string) => void } = {}): Promise<{ stop(): Promise<void> }> {
@@ -36,5 +37,5 @@ export async function runWorker(options: { log?: (message: string) => void } = {
 
 /** True when the web process should also work the queues (one-process installs, `npm start`, the browser tests). */
 export function jobsInProcess(env: NodeJS.ProcessEnv = process.env): boolean {
-	return env.LOTGATE_JOBS_IN_PROCESS === '1';
+	return config(env).LOTGATE_JOBS_IN_PROCESS;
 }

@@ -7,6 +7,7 @@ import { CLIENT_IP_HEADER, signIn, signInRetryAfter } from '$lib/server/auth';
 import { LOGIN_PER_ACCOUNT } from '$lib/server/rate-limit';
 import { LOCKED_MESSAGE } from '$lib/server/services/users';
 import type { Actions, PageServerLoad } from './$types';
+import { config } from '$lib/server/config';
 
 const signInSchema = z.object({
 	email: z.string().trim().max(320).email('Enter your e-mail address'),
@@ -38,7 +39,7 @@ const safeTarget = (target: string | null) => (target && target.startsWith('/') 
 export const load = (async ({ locals, url }) => {
 	if (locals.user) redirect(303, safeTarget(url.searchParams.get('redirectTo')));
 	const form = await superValidate({ redirectTo: safeTarget(url.searchParams.get('redirectTo')) }, zod(signInSchema), { errors: false });
-	return { form, demo: process.env.LOTGATE_DEMO === '1', changed: url.searchParams.get('changed') === '1' };
+	return { form, demo: config().LOTGATE_DEMO, changed: url.searchParams.get('changed') === '1' };
 }) satisfies PageServerLoad;
 
 export const actions = {

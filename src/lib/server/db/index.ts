@@ -1,12 +1,13 @@
 import pg from 'pg';
 import { Sequelize, Transaction } from 'sequelize';
 import { defineModels, type Models } from './models';
+import { config } from '../config';
 
 let instance: { sequelize: Sequelize; models: Models } | null = null;
 
 /** The connection string; fails fast so a misconfigured server never starts half-working. */
 export function databaseUrl(): string {
-	const url = process.env.DATABASE_URL;
+	const url = config().DATABASE_URL;
 	if (!url) throw new Error('DATABASE_URL is not set: point it at PostgreSQL, or use `npm start`, which starts the embedded one.');
 	return url;
 }
@@ -17,7 +18,7 @@ function connect() {
 			dialect: 'postgres',
 			dialectModule: pg,
 			logging: false,
-			pool: { max: Number(process.env.DB_POOL_MAX ?? 10), idle: 10_000 },
+			pool: { max: config().DB_POOL_MAX, idle: 10_000 },
 			define: { underscored: true, timestamps: false }
 		});
 		instance = { sequelize, models: defineModels(sequelize) };

@@ -1,6 +1,7 @@
 import type { Sequelize } from 'sequelize';
 import { Umzug, SequelizeStorage } from 'umzug';
 import { migrations } from './migrations';
+import { config } from '../config';
 
 /** Applies pending migrations in order; the list is explicit so the bundled server needs no file globbing. */
 export async function migrate(sequelize: Sequelize, { quiet = false } = {}) {
@@ -24,7 +25,7 @@ export async function migrate(sequelize: Sequelize, { quiet = false } = {}) {
  * LOTGATE_APP_ROLE names it (default lotgate_app); nothing is granted when that role does not exist.
  */
 export async function grantAppRole(sequelize: Sequelize) {
-	const role = process.env.LOTGATE_APP_ROLE || 'lotgate_app';
+	const role = config().LOTGATE_APP_ROLE;
 	if (!/^[a-z_][a-z0-9_]*$/.test(role)) throw new Error(`LOTGATE_APP_ROLE "${role}" is not a plain role name`);
 	const [rows] = await sequelize.query(`SELECT 1 FROM pg_roles WHERE rolname = '${role}' AND rolname <> current_user`);
 	if (!rows.length) return;

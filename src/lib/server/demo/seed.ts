@@ -6,6 +6,7 @@ import * as instruments from '../services/instruments';
 import * as materials from '../services/materials';
 import * as suppliers from '../services/suppliers';
 import * as users from '../services/users';
+import { config } from '../config';
 
 export const DEMO_COMPANY = 'Quarrymoor Pharmaceuticals (demo)';
 
@@ -18,7 +19,7 @@ export const DEMO_ACCOUNTS: { email: string; name: string; roles: Role[] }[] = [
 	{ email: 'admin@demo.test', name: 'Sam Whitlock', roles: ['admin'] }
 ];
 
-export const demoPassword = () => process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate';
+export const demoPassword = () => config().LOTGATE_DEMO_PASSWORD;
 
 const DEMO_SUPPLIERS = [
 	{ code: 'NORDVIK', name: 'Nordvik Excipients', contacts: ['quality@nordvik.demo.test'], status: 'qualified' as const },

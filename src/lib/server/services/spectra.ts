@@ -10,21 +10,18 @@ import * as audit from './audit';
 import { forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
 import * as instruments from './instruments';
 import { displayFileName } from '../../validation/text';
+import { config } from '../config';
 
 export type SpectrumContext = 'loose' | 'library' | 'lot';
 const CONTEXTS: SpectrumContext[] = ['loose', 'library', 'lot'];
 
 const MB = 1024 * 1024;
-const envNumber = (name: string, fallback: number) => {
-	const v = Number(process.env[name]);
-	return Number.isFinite(v) && v > 0 ? v : fallback;
-};
 /** Largest accepted file (LOTGATE_MAX_UPLOAD_MB, default 20 MB). Read per call so tests and ops can change it. */
-export const maxFileBytes = () => Math.round(envNumber('LOTGATE_MAX_UPLOAD_MB', 20) * MB);
+export const maxFileBytes = () => Math.round(config().LOTGATE_MAX_UPLOAD_MB * MB);
 /** Most files in one request (LOTGATE_MAX_BATCH_FILES, default 200). */
-export const maxBatchFiles = () => Math.floor(envNumber('LOTGATE_MAX_BATCH_FILES', 200));
+export const maxBatchFiles = () => Math.floor(config().LOTGATE_MAX_BATCH_FILES);
 /** Largest whole request (LOTGATE_MAX_BATCH_MB, default 200 MB): a batch is read into memory once before parsing. */
-export const maxBatchBytes = () => Math.round(envNumber('LOTGATE_MAX_BATCH_MB', 200) * MB);
+export const maxBatchBytes = () => Math.round(config().LOTGATE_MAX_BATCH_MB * MB);
 
 /** A refused file: the shared error shape plus the file (and line, where the parser knows it). */
 export class IntakeError extends ServiceError {

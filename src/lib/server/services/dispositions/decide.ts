@@ -18,8 +18,9 @@ import { certificateContent } from './certificate';
 import { row, toView } from './read';
 import { buildRecord } from './record';
 import { type Decision, DECISION_TEXT, LOT_STATUS, dispositionSchema, type DispositionInput, cosignSchema } from './schema';
+import { config } from '../../config';
 
-const timeZone = () => process.env.LOTGATE_TIME_ZONE || DEFAULT_TIME_ZONE;
+const timeZone = () => config().LOTGATE_TIME_ZONE || DEFAULT_TIME_ZONE;
 
 function requireQa(actor: Actor) {
 	if (actor.id == null || !hasRole(actor, can.signDispositions)) throw forbidden('Only a QA manager signs a disposition');

@@ -13,6 +13,7 @@ import * as dispositions from '$lib/server/services/dispositions';
 import { ServiceError } from '$lib/server/services/errors';
 import * as lots from '$lib/server/services/lots';
 import type { LotView } from '$lib/server/services/lots';
+import { config } from '$lib/server/config';
 
 // The signer chooses the decision and the meaning: the form starts with neither selected (a signed form has no default).
 const CHOOSE_DECISION = 'Choose release, quarantine or reject';
@@ -41,7 +42,7 @@ export async function dispositionPanelData(actor: Actor, lot: LotView) {
 		pending,
 		effective,
 		mail: (await mail.forLot(lot.id)).filter((m) => m.kind === 'certificate'),
-		timeZone: process.env.LOTGATE_TIME_ZONE || DEFAULT_TIME_ZONE,
+		timeZone: config().LOTGATE_TIME_ZONE || DEFAULT_TIME_ZONE,
 		complete,
 		identity: lot.identity,
 		canDispose: isQa && !waitingForOther,
