@@ -4,7 +4,7 @@ import type { SplitMethod } from './artefact';
 import type { NodeOptions } from './tree-build';
 
 /**
- * A model tree as the chemometrician edits it (build page, API): nodes below the root (the family model), each with a
+ * A model tree as the chemometrician edits it (build page, API): nodes below the root model, each with a
  * name, a kind, how it decides among its children, and, at a leaf, the library labels whose training spectra it holds.
  * A library label may itself be a path ("suspect/diluted/starch" or "diluted/starch"); the tree decides where its
  * spectra sit, so a flat library can be built into a deep tree and a deep library into a renamed one.

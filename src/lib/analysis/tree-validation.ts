@@ -19,12 +19,12 @@ export const NOT_REACHED = 'stopped above';
 export const FROM_ELSEWHERE = 'from elsewhere';
 
 export interface NodeConfusion {
-	/** The node whose children are decided ([] = the root: level 1, after the family model). */
+	/** The node whose children are decided ([] = the root: its children are the first level). */
 	node: string[];
 	method: 'one-class' | 'plsda' | 'knn';
 	/** Rows: the children, then FROM_ELSEWHERE (spectra that reached the node but belong elsewhere, aliens included). */
 	rows: string[];
-	/** Columns: the children, then NONE_OF_THESE (the level answered none, or the family model refused), then NOT_REACHED. */
+	/** Columns: the children, then NONE_OF_THESE (the level answered none, or the root model refused), then NOT_REACHED. */
 	columns: string[];
 	counts: number[][];
 	/** Spectra expected below this node that the level sent to the right child, of those expected below it. */
@@ -102,7 +102,7 @@ export interface ClassifierComparison {
 	/** Cross-validated misclassification rate per candidate (PLS-DA: A = 1..; kNN: the candidate ks). */
 	cvError: number[];
 	candidates: number[];
-	/** Rows: the level-1 classes, then "alien"; columns: the level-1 classes (a closed set has no "none"). */
+	/** Rows: the first-level nodes, then "alien"; columns: the first-level nodes (a closed set has no "none"). */
 	rows: string[];
 	columns: string[];
 	counts: number[][];
@@ -116,7 +116,8 @@ export interface ClassifierComparison {
 }
 
 export interface DiscriminantComparison {
-	classes: string[];
+	/** The first-level nodes, the classifiers' classes. */
+	level1: string[];
 	genuine: string | null;
 	recipe: string;
 	/** The one-class tree on the same spectra: aliens it calls genuine, known spectra it names correctly at level 1. */
@@ -135,7 +136,7 @@ export function compareDiscriminants(
 	tests: (SpectrumInput & { expected: string | null })[],
 	options: { folds?: number; results?: ScreenResult[] } = {}
 ): DiscriminantComparison | null {
-	const K = artefact.classes;
+	const K = treeOf(artefact).children.map((c) => c.name);
 	if (K.length < 2) return null;
 	const folds = options.folds ?? artefact.options.folds;
 	const prep = prepareArtefact(artefact);
@@ -227,5 +228,5 @@ export function compareDiscriminants(
 			if (r.path[0] === exp) oneClass.correct++;
 		}
 	});
-	return { classes: [...K], genuine: artefact.genuine, recipe: artefact.recipe, oneClass, classifiers };
+	return { level1: K, genuine: artefact.genuine, recipe: artefact.recipe, oneClass, classifiers };
 }
