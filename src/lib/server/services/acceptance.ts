@@ -1,6 +1,7 @@
 // Acceptance criteria per material (issue 12 §1): what a model version's validation must show before QA may approve
 // it. A chemometrician proposes a revision; a QA user who did not propose it approves or refuses it with an electronic
 // signature. The latest approved revision applies; a material without one uses the documented defaults.
+import { labelClass } from '../../analysis/tree-spec';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
 import { can } from '../../permissions';
@@ -165,6 +166,12 @@ interface VersionFacts {
 	figures: { models: { name: string; alpha: number; n: number; cvFalseRejectRate: number }[] } | null;
 }
 
+/** A library label's class: "genuine/site-b" counts for genuine, "suspect/diluted/starch" for diluted (an alien's label stays). */
+const materialClassOf = (label: string) => {
+	const c = labelClass(label);
+	return 'problem' in c ? label : c.className;
+};
+
 /** Evaluates a version's stored validation against the material's effective criteria. */
 export async function evaluateVersion(versionId: number, tx?: Transaction): Promise<VersionAcceptance> {
 	const rows = await sequelize().query<VersionFacts>('SELECT material_id, validation, figures FROM model_versions WHERE id = :id', { replacements: { id: versionId }, type: QueryTypes.SELECT, transaction: tx });
@@ -184,7 +191,7 @@ export async function evaluateVersion(versionId: number, tx?: Transaction): Prom
 	const trainingLots = lots.filter((l) => l.included === true && l.supplier_lot).map((l) => l.supplier_lot!);
 	const items: ValidationItem[] = (v.validation?.verdicts ?? [])
 		.filter((x) => x.role === 'test' || x.role === 'challenge')
-		.map((x) => ({ label: x.label, role: x.role as 'test' | 'challenge', supplierLot: lotOf.get(Number(x.entryId)) ?? null, verdict: x.verdict, profile: x.profile }));
+		.map((x) => ({ label: materialClassOf(x.label), role: x.role as 'test' | 'challenge', supplierLot: lotOf.get(Number(x.entryId)) ?? null, verdict: x.verdict, profile: x.profile }));
 	const result = evaluateAcceptance(
 		{
 			genuine,
