@@ -206,7 +206,7 @@ describe('forms that sign or record choose nothing for the user (issue 17 item 5
 		expect(noMeaning?.status).toBe(400);
 		expect(noMeaning?.data?.form?.errors.meaning?.[0]).toBe('Choose the meaning of your signature');
 		expect((await suppliers.get(code)).status).toBe('qualified');
-	});
+	}, 120_000);
 
 	it('model approval starts with no meaning and is refused without one', async () => {
 		const page = await import('../../src/routes/(app)/materials/[code]/versions/[version]/approve/+page.server');
@@ -350,4 +350,46 @@ describe('exclusions that stick: "Build a version" starts from the current versi
 			['high-false-reject-rate', `cross-validated false-reject rate ${((4 / genuine.nTo) * 100).toFixed(1)} %`]
 		]);
 	}, 120_000);
+});
+
+describe('alerts stay current (issue 17 item 7)', () => {
+	it('shows each finding as it stands after rescans and an invalidation, and the lot’s disposition in force', async () => {
+		const alerts = await import('../../src/lib/server/services/alerts');
+		const invalidations = await import('../../src/lib/server/services/invalidations');
+		const lot = await failedLot();
+		const failing = lot.scans.find((x) => x.verdict !== 'genuine')!;
+		const [opened] = (await alerts.list({ lot: lot.id })).rows;
+		expect(opened.current.findings).toEqual([{ scanId: failing.id, container: 2, scan: 'counts', later: [], result: 'suspect', profile: 'diluted-starch', decided: true }]);
+		expect(opened.current.lot).toMatchObject({ status: 'screened', identity: 'fails' });
+		expect(opened.current.disposition).toBeNull();
+
+		// A rescan alone does not replace a failing result (docs/methods.md §16): the alert says so.
+		const title = `${fx.materialCode}, lot ${lot.supplierLot}, container 2`;
+		const rescan = await s.scans.add(tech.actor, lot.id, { bytes: jcamp('genuine', fx.axis, seed++, title), fileName: 'c2-retest.jdx', container: 2 });
+		let now = (await alerts.get(opened.id)).current;
+		expect(now.findings[0]).toMatchObject({ scan: 'counts', later: [{ scanId: rescan.scanId, verdict: 'genuine', profile: null }], result: 'suspect' });
+
+		// QA approves the invalidation of the failing scan: the container is genuine now, the lot meets identity.
+		const chemist = await makeUser(['chemometrician']);
+		await invalidations.propose(chemist.actor, lot.id, failing.id, { cause: 'sample-presentation', description: 'probe window not in contact with the powder' });
+		now = (await alerts.get(opened.id)).current;
+		expect(now.findings[0].scan).toBe('invalidation-proposed');
+		await invalidations.decide(qa1.actor, lot.id, failing.id, 'approve', { meaning: 'invalidation approved: assignable laboratory cause', reason: 'lab log confirms it', password: qa1.password });
+		now = (await alerts.get(opened.id)).current;
+		expect(now.findings[0]).toMatchObject({ scan: 'invalidated', result: 'genuine', decided: true });
+		expect(now.lot).toMatchObject({ identity: 'meets', identityText: 'meets identity' });
+
+		// The release needs two QA signatures (the container once failed): pending first, then in force.
+		const first = await s.dispositions.dispose(qa1.actor, lot.id, { decision: 'release', ...sign(qa1, 'invalidated on an assignable cause; retest genuine') });
+		now = (await alerts.get(opened.id)).current;
+		expect(now.disposition).toBeNull();
+		expect(now.pending).toMatchObject({ id: first.disposition.id, decision: 'release', signedBy: qa1.user.name });
+		await s.dispositions.cosign(qa2.actor, first.disposition.id, { meaning: 'approved as second QA manager', reason: 'reviewed the invalidation', password: qa2.password });
+		const [listed] = (await alerts.list({ lot: lot.id })).rows;
+		expect(listed.current.pending).toBeNull();
+		expect(listed.current.disposition).toMatchObject({ decision: 'release', decisionText: 'released', signedBy: [qa1.user.name, qa2.user.name] });
+		expect(listed.current.lot).toMatchObject({ status: 'released', statusText: 'released' });
+		// The alert's own record is unchanged: it still shows what was screened then.
+		expect(listed.findings).toMatchObject([{ scanId: failing.id, verdict: 'suspect' }]);
+	});
 });

@@ -21,6 +21,9 @@ import { queueMail } from '../mail';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
 import { conflict, forbidden, invalid, notFound } from './errors';
+import * as containerResults from './container-results';
+import { lotIdentity, MATERIAL_VERDICTS, type ContainerResultWord } from '../../analysis/container-result';
+import { IDENTITY_LABELS, STATUS_LABELS, type Identity, type LotStatus } from './lots';
 
 export type Severity = 'high' | 'medium' | 'low';
 export type AlertState = 'open' | 'acknowledged' | 'closed';
@@ -164,6 +167,105 @@ export interface AlertView {
 	openedAt: string;
 	acknowledged: { by: string | null; at: string; note: string } | null;
 	closed: { by: string | null; at: string; note: string } | null;
+	/** Where things stand now, read when the alert is shown (rescans, invalidations and decisions after it opened). */
+	current: AlertCurrent;
+}
+
+/** The state now of one finding: its scan, and the container's result over every scan of it (docs/methods.md §16). */
+export interface FindingNow {
+	scanId: number;
+	container: number;
+	/** counts: a valid result that still counts; invalidated: QA approved its invalidation; invalidation-proposed: awaiting QA; not-counted: never a material result (unusable). */
+	scan: 'counts' | 'invalidated' | 'invalidation-proposed' | 'not-counted';
+	/** Scans of the same container uploaded after this finding's scan, oldest first. */
+	later: { scanId: number; verdict: string; profile: string | null }[];
+	/** The container's result now; null when the container is no longer sampled and has no scan. */
+	result: ContainerResultWord | null;
+	profile: string | null;
+	decided: boolean;
+}
+
+export interface AlertCurrent {
+	findings: FindingNow[];
+	lot: { status: LotStatus; statusText: string; identity: Identity; identityText: string | null };
+	/** The lot's disposition in force (the final one unless superseded later), and a release waiting for its second signature. */
+	disposition: { id: number; decision: string; decisionText: string; signedBy: string[]; at: string } | null;
+	pending: { id: number; decision: string; signedBy: string; at: string } | null;
+}
+
+const DECISION_TEXT: Record<string, string> = { release: 'released', quarantine: 'quarantined', reject: 'rejected' };
+const EMPTY_CURRENT: AlertCurrent = { findings: [], lot: { status: 'awaiting-scans', statusText: STATUS_LABELS['awaiting-scans'], identity: null, identityText: null }, disposition: null, pending: null };
+
+/** Fills `current` of each alert from its lot's scans, invalidations and dispositions as they are now (a few queries per page). */
+async function attachCurrent(views: AlertView[], tx?: Transaction): Promise<AlertView[]> {
+	const lotIds = [...new Set(views.map((v) => v.lot.id))];
+	if (!lotIds.length) return views;
+	const q = <T extends object>(sql: string) => sequelize().query<T>(sql, { replacements: { lotIds }, type: QueryTypes.SELECT, transaction: tx });
+	const [lotRows, scanRows, invalidationLists, dispRows] = await Promise.all([
+		q<{ id: number; status: LotStatus; sampled: number[]; replicates: number }>("SELECT id, status, sampled, coalesce((plan->>'replicates')::integer, 1) AS replicates FROM lots WHERE id IN (:lotIds)"),
+		q<{ id: number; lot_id: number; container: number; verdict: string; profile: string | null }>('SELECT id, lot_id, container, verdict, profile FROM scans WHERE lot_id IN (:lotIds) ORDER BY id'),
+		Promise.all(lotIds.map((id) => containerResults.forLot(id, tx))),
+		q<{ id: number; lot_id: number; decision: string; state: string; effective_at: Date | null; created_at: Date; first: string; second: string | null }>(
+			`SELECT d.id, d.lot_id, d.decision, d.state, d.effective_at, d.created_at, s1.signer_name AS first, s2.signer_name AS second
+			   FROM dispositions d JOIN signatures s1 ON s1.id = d.signature_id LEFT JOIN signatures s2 ON s2.id = d.second_signature_id
+			  WHERE d.lot_id IN (:lotIds) AND d.state IN ('effective', 'awaiting-second-signature')`
+		)
+	]);
+	interface LotNow {
+		summary: Omit<AlertCurrent, 'findings'>;
+		scans: { id: number; container: number; verdict: string; profile: string | null }[];
+		latestInvalidation: Map<number, containerResults.InvalidationView>;
+		results: Map<number, containerResults.ContainerResult>;
+	}
+	const byLot = new Map<number, LotNow>();
+	for (const lot of lotRows) {
+		const lotId = Number(lot.id);
+		const scans = scanRows.filter((r) => Number(r.lot_id) === lotId).map((r) => ({ id: Number(r.id), container: Number(r.container), verdict: r.verdict, profile: r.profile }));
+		const invalidations = invalidationLists[lotIds.indexOf(lotId)] ?? [];
+		const sampled = (lot.sampled ?? []).map(Number);
+		const results = containerResults.resultsOf(scans, invalidations, [...new Set([...sampled, ...scans.map((x) => x.container)])], Number(lot.replicates) || 1);
+		const identity = lotIdentity(sampled.map((c) => results.get(c)!));
+		const effective = dispRows.find((d) => Number(d.lot_id) === lotId && d.state === 'effective');
+		const pending = dispRows.find((d) => Number(d.lot_id) === lotId && d.state === 'awaiting-second-signature');
+		byLot.set(lotId, {
+			summary: {
+				lot: { status: lot.status, statusText: STATUS_LABELS[lot.status] ?? lot.status, identity, identityText: identity ? IDENTITY_LABELS[identity] : null },
+				disposition: effective
+					? {
+							id: Number(effective.id),
+							decision: effective.decision,
+							decisionText: DECISION_TEXT[effective.decision] ?? effective.decision,
+							signedBy: [effective.first, effective.second].filter((x): x is string => !!x),
+							at: new Date(effective.effective_at ?? effective.created_at).toISOString()
+						}
+					: null,
+				pending: pending ? { id: Number(pending.id), decision: pending.decision, signedBy: pending.first, at: new Date(pending.created_at).toISOString() } : null
+			},
+			scans,
+			latestInvalidation: containerResults.latestByScan(invalidations),
+			results
+		});
+	}
+	return views.map((v) => {
+		const now = byLot.get(v.lot.id);
+		if (!now) return v;
+		// A drift alert's finding is the lot's statistic, not a scan.
+		if (v.kind === 'drift') return { ...v, current: { findings: [], ...now.summary } };
+		const findings: FindingNow[] = v.findings.map((f) => {
+			const inv = now.latestInvalidation.get(f.scanId);
+			const r = now.results.get(f.container);
+			return {
+				scanId: f.scanId,
+				container: f.container,
+				scan: !(MATERIAL_VERDICTS as readonly string[]).includes(f.verdict) ? 'not-counted' : inv?.state === 'approved' ? 'invalidated' : inv?.state === 'proposed' ? 'invalidation-proposed' : 'counts',
+				later: now.scans.filter((x) => x.container === f.container && x.id > f.scanId).map((x) => ({ scanId: x.id, verdict: x.verdict, profile: x.profile })),
+				result: r?.result ?? null,
+				profile: r?.profile ?? null,
+				decided: r?.decided ?? false
+			};
+		});
+		return { ...v, current: { findings, ...now.summary } };
+	});
 }
 
 const SELECT = `SELECT a.*, s.code AS supplier_code, s.name AS supplier_name, m.code AS material_code, l.internal_lot, l.supplier_lot,
@@ -193,7 +295,8 @@ function toView(r: Record<string, unknown>): AlertView {
 		invalidations: ((r.invalidations as AlertView['invalidations']) ?? []).map((v) => ({ ...v, decidedAt: v.decidedAt ? new Date(v.decidedAt).toISOString() : null })),
 		openedAt: iso(r.opened_at),
 		acknowledged: r.acknowledged_at ? { by: (r.acknowledged_by_name as string | null) ?? null, at: iso(r.acknowledged_at), note: r.acknowledge_note as string } : null,
-		closed: r.closed_at ? { by: (r.closed_by_name as string | null) ?? null, at: iso(r.closed_at), note: r.close_note as string } : null
+		closed: r.closed_at ? { by: (r.closed_by_name as string | null) ?? null, at: iso(r.closed_at), note: r.close_note as string } : null,
+		current: EMPTY_CURRENT
 	};
 }
 
@@ -236,7 +339,7 @@ export async function list(query: AlertQuery = {}) {
 		type: QueryTypes.SELECT
 	});
 	return {
-		rows: rows.map(toView),
+		rows: await attachCurrent(rows.map(toView)),
 		total: rows.length ? Number(rows[0].total) : 0,
 		page,
 		pageSize,
@@ -248,7 +351,7 @@ export async function get(id: number, tx?: Transaction): Promise<AlertView> {
 	if (!Number.isInteger(id) || id < 1) throw notFound(`Alert ${id}`);
 	const rows = await sequelize().query<Record<string, unknown>>(`${SELECT} WHERE a.id = :id`, { replacements: { id }, type: QueryTypes.SELECT, transaction: tx });
 	if (!rows[0]) throw notFound(`Alert ${id}`);
-	return toView(rows[0]);
+	return (await attachCurrent([toView(rows[0])], tx))[0];
 }
 
 // ---------- handling ----------
