@@ -321,6 +321,23 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 	const range = rangeOf(steps);
 	if (range) axis = restrictAxis(axis, range.from, range.to);
 	const maxGap = maxGapOf(steps);
+	// Savitzky–Golay assumes equal spacing; on a non-uniform axis it would silently use the mean spacing (issue 12 §3).
+	// Refused at build time (stored artefacts keep loading as they were built): declare a step so the grid is uniform.
+	if (steps.some((st) => st.op === 'savgol') && axis.x.length > 2) {
+		const mean = (axis.x[axis.x.length - 1] - axis.x[0]) / (axis.x.length - 1);
+		let lo = Infinity;
+		let hi = -Infinity;
+		for (let i = 1; i < axis.x.length; i++) {
+			const d = axis.x[i] - axis.x[i - 1];
+			if (d < lo) lo = d;
+			if (d > hi) hi = d;
+		}
+		if (hi - lo > 0.01 * mean)
+			throw new AnalysisError(
+				'non-uniform-axis',
+				`savgol needs a uniformly spaced axis, but the model axis spacing varies from ${Number(lo.toPrecision(4))} to ${Number(hi.toPrecision(4))} ${axis.unit}: give the axis a step (the build then resamples onto a uniform grid) or leave savgol out`
+			);
+	}
 	const report = (p: Omit<BuildProgress, 'done' | 'total'>, done: number, total: number) => onProgress?.({ ...p, done, total });
 
 	const fullLabels = training.map((s) => (s.className === null || s.className === undefined || s.className === '' ? null : String(s.className)));

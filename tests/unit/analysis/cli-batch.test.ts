@@ -25,7 +25,7 @@ describe('lotgate screen --input a.jdx b.jdx … (gasoline NIR, Kalivas 1997)', 
 	test('screens every file, reports the unreadable one as unusable, exits 3; a 2-decimal cm⁻¹ file is not refused', { timeout: 120_000 }, () => {
 		const dir = mkdtempSync(join(tmpdir(), 'lotgate-batch-'));
 		const model = join(dir, 'model.json');
-		const b = run('build', '--train', fixture('gasoline_nir.csv'), '--components', '3', '--out', model);
+		const b = run('build', '--train', fixture('gasoline_nir.csv'), '--family-components', '3', '--out', model);
 		expect(b.status, b.stderr).toBe(0);
 		const g = gasoline();
 		const q = (v: number) => Math.round(v * 1e6) / 1e6;

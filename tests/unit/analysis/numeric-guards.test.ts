@@ -64,3 +64,18 @@ describe('a flat spectrum is unusable under every recipe (docs §9 and the flat 
 	});
 	test('a real spectrum is not caught by the flat rule', () => expect(screen(a, { id: 'g40', axis: g[40].axis, values: g[40].values, unit: 'nm' }).verdict).not.toBe('unusable'));
 });
+
+describe('Savitzky–Golay on a non-uniform axis is refused at build time (issue 12 §3)', () => {
+	const g = gasolineTraining();
+	// gasoline (Kalivas 1997) is on a uniform 2 nm grid; drop every third point to make the spacing 2 or 4 nm
+	const keep = (x: ArrayLike<number>) => Array.from(x).filter((_, j) => j % 3 !== 2);
+	const uneven = g.slice(0, 30).map((s) => ({ ...s, axis: keep(s.axis), values: keep(s.values) }));
+	test('a non-uniform grid with savgol: the message names the spacing and the remedy', () => {
+		expect(() => buildModel(uneven, { recipe: 'savgol(11,2,1),center', familyComponents: 2 })).toThrow(/savgol needs a uniformly spaced axis, but the model axis spacing varies from 2 to 4 nm: give the axis a step/);
+	});
+	test('with a declared step the build resamples onto a uniform grid and succeeds', () => {
+		const a = buildModel(uneven, { recipe: 'savgol(11,2,1),center', familyComponents: 2, axis: { unit: 'nm', from: 900, to: 1698, step: 2 } });
+		expect(a.axis.step).toBe(2);
+	});
+	test('without savgol the non-uniform grid is allowed', () => expect(() => buildModel(uneven, { recipe: 'snv,center', familyComponents: 2 })).not.toThrow());
+});
