@@ -291,8 +291,24 @@ describe('supplier status and scorecard', () => {
 		expect(card.lots.fails).toBeGreaterThan(0); // the demo seeds a failing PALMERA lot
 		expect(card.passRate).not.toBeNull();
 		expect(card.verdicts.some((v) => v.verdict === 'suspect' && v.profile === 'diluted-starch')).toBe(true);
-		expect(card.trend).toHaveLength(12);
 		expect(card.alerts.open.every((a) => a.state !== 'closed')).toBe(true);
+	});
+
+	it('counts the tiles, the verdicts and the trend over one period, ending with the current month (issue 17)', async () => {
+		const all = await s.scorecards.scorecard('PALMERA');
+		const now = new Date().toISOString().slice(0, 7);
+		expect(all.period).toMatchObject({ choice: 'all', to: now });
+		expect(all.trend).toHaveLength(all.period.months);
+		expect(all.trend[all.trend.length - 1].month).toBe(now);
+		// the tiles count exactly the lots the trend shows
+		const sum = (k: 'received' | 'meets' | 'fails') => all.trend.reduce((n, t) => n + t[k], 0);
+		expect(sum('received')).toBe(all.lots.received);
+		expect(sum('meets')).toBe(all.lots.meets);
+		expect(sum('fails')).toBe(all.lots.fails);
+		const one = await s.scorecards.scorecard('PALMERA', { months: 1 });
+		expect(one.trend.map((t) => t.month)).toEqual([now]);
+		expect(one.lots.received).toBe(one.trend[0].received);
+		await expect(s.scorecards.scorecard('PALMERA', { months: 0 })).rejects.toMatchObject({ status: 400, field: 'months' });
 	});
 });
 

@@ -6,6 +6,7 @@ import { QueryTypes } from 'sequelize';
 import { sequelize } from '../db';
 import * as alerts from './alerts';
 import { VALID_VERDICTS } from './lots';
+import { ServiceError } from './errors';
 import * as suppliers from './suppliers';
 
 export interface MonthPoint {
@@ -17,10 +18,34 @@ export interface MonthPoint {
 	passRate: number | null;
 }
 
-/** The trend covers the `months` months up to the supplier's latest delivery (or this month without any). */
-export async function scorecard(supplierRef: string | number, options: { months?: number } = {}) {
+/** Periods offered for a scorecard: whole months ending with the current month, or every month since the first lot. */
+export const PERIODS = ['6', '12', '24', '60', 'all'] as const;
+export type Period = number | 'all';
+const MAX_MONTHS = 120;
+
+/**
+ * One period for every figure: the tiles, the verdicts by profile and the monthly trend all count the lots received
+ * in the same whole months, ending with the current month (never at the supplier's last delivery). `months`: that many
+ * months; 'all' (the default): every month since the supplier's first lot, at most 120. Open alerts are as of now.
+ */
+export async function scorecard(supplierRef: string | number, options: { months?: Period } = {}) {
 	const supplier = await suppliers.get(supplierRef);
-	const months = Math.min(Math.max(options.months ?? 12, 1), 60);
+	const choice = options.months ?? 'all';
+	if (choice !== 'all' && !(Number.isInteger(choice) && choice >= 1 && choice <= MAX_MONTHS)) throw new ServiceError(400, 'bad-period', `The period is a whole number of months from 1 to ${MAX_MONTHS}, or all`, 'months');
+	const [b] = await sequelize().query<{ last: string; first: string | null }>(
+		`SELECT to_char(date_trunc('month', current_date), 'YYYY-MM-DD') AS last,
+		        to_char(date_trunc('month', min(received_at)), 'YYYY-MM-DD') AS first
+		   FROM lots WHERE supplier_id = :id`,
+		{ replacements: { id: supplier.id }, type: QueryTypes.SELECT }
+	);
+	const index = (ymd: string) => Number(ymd.slice(0, 4)) * 12 + Number(ymd.slice(5, 7)) - 1;
+	const ymd = (i: number) => `${Math.floor(i / 12)}-${String((i % 12) + 1).padStart(2, '0')}-01`;
+	const last = index(b.last);
+	const wanted = choice === 'all' ? last - Math.min(b.first ? index(b.first) : last, last) + 1 : choice;
+	const months = Math.min(wanted, MAX_MONTHS);
+	const w = { from: ymd(last - months + 1), to: b.last, months, first: b.first?.slice(0, 7) ?? null };
+	const window = { id: supplier.id, from: w.from, to: w.to };
+	const inPeriod = (alias = '') => `${alias}received_at >= CAST(:from AS date) AND ${alias}received_at < CAST(:to AS date) + interval '1 month'`;
 	const [totals] = await sequelize().query<{ received: string; meets: string; fails: string; not_screened: string; awaiting: string; released: string; quarantined: string; rejected: string; containers: string }>(
 		`SELECT count(*) AS received,
 		        count(*) FILTER (WHERE identity = 'meets') AS meets,
@@ -31,32 +56,31 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		        count(*) FILTER (WHERE status = 'quarantined') AS quarantined,
 		        count(*) FILTER (WHERE status = 'rejected') AS rejected,
 		        coalesce(sum(containers), 0) AS containers
-		   FROM lots WHERE supplier_id = :id`,
-		{ replacements: { id: supplier.id }, type: QueryTypes.SELECT }
+		   FROM lots WHERE supplier_id = :id AND ${inPeriod()}`,
+		{ replacements: window, type: QueryTypes.SELECT }
 	);
 	const verdicts = await sequelize().query<{ verdict: string; profile: string | null; material: string; n: string }>(
 		`WITH counted AS (
 		   SELECT DISTINCT ON (sc.lot_id, sc.container) sc.lot_id, sc.verdict, sc.profile
 		     FROM scans sc JOIN lots l ON l.id = sc.lot_id
-		    WHERE l.supplier_id = :id AND sc.verdict IN (:valid)
+		    WHERE l.supplier_id = :id AND sc.verdict IN (:valid) AND ${inPeriod('l.')}
 		      AND NOT EXISTS (SELECT 1 FROM scan_invalidations si WHERE si.scan_id = sc.id AND si.state = 'approved')
 		    ORDER BY sc.lot_id, sc.container,
 		             array_position(ARRAY['not-this-material','unknown','suspect','genuine']::text[], sc.verdict), sc.id)
 		 SELECT c.verdict, c.profile, m.code AS material, count(*) AS n
 		   FROM counted c JOIN lots l ON l.id = c.lot_id JOIN materials m ON m.id = l.material_id
 		  GROUP BY c.verdict, c.profile, m.code ORDER BY count(*) DESC, c.verdict, c.profile NULLS FIRST`,
-		{ replacements: { id: supplier.id, valid: VALID_VERDICTS }, type: QueryTypes.SELECT }
+		{ replacements: { ...window, valid: VALID_VERDICTS }, type: QueryTypes.SELECT }
 	);
 	const trendRows = await sequelize().query<{ month: string; received: string; meets: string; fails: string }>(
 		`SELECT to_char(m.month, 'YYYY-MM') AS month,
 		        count(l.id) AS received,
 		        count(l.id) FILTER (WHERE l.identity = 'meets') AS meets,
 		        count(l.id) FILTER (WHERE l.identity = 'fails') AS fails
-		   FROM (SELECT date_trunc('month', coalesce((SELECT max(received_at) FROM lots WHERE supplier_id = :id), current_date)) AS last) w,
-		        generate_series(w.last - make_interval(months => :back), w.last, interval '1 month') AS m(month)
+		   FROM generate_series(CAST(:from AS date), CAST(:to AS date), interval '1 month') AS m(month)
 		   LEFT JOIN lots l ON l.supplier_id = :id AND date_trunc('month', l.received_at) = m.month
 		  GROUP BY m.month ORDER BY m.month`,
-		{ replacements: { id: supplier.id, back: months - 1 }, type: QueryTypes.SELECT }
+		{ replacements: window, type: QueryTypes.SELECT }
 	);
 	const trend: MonthPoint[] = trendRows.map((r) => {
 		const meets = Number(r.meets);
@@ -72,6 +96,8 @@ export async function scorecard(supplierRef: string | number, options: { months?
 	);
 	return {
 		supplier: suppliers.toPublic(supplier),
+		/** The months every figure below counts (alerts: as of now). */
+		period: { choice: String(choice), from: w.from.slice(0, 7), to: w.to.slice(0, 7), months: Number(w.months), firstLot: w.first },
 		lots: {
 			received: Number(totals.received),
 			containers: Number(totals.containers),

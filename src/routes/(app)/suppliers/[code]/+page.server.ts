@@ -24,7 +24,10 @@ const requestFormSchema = supplierStatus.requestSchema.extend({ status: chooseOn
 
 export const load = (async (event) => {
 	const actor = requireUser(event);
-	const card = await scorecards.scorecard(event.params.code).catch((e) => {
+	// One period, chosen by the user, for the tiles, the verdicts and the trend alike.
+	const period = event.url.searchParams.get('period') ?? 'all';
+	if (!(scorecards.PERIODS as readonly string[]).includes(period)) error(400, `Choose a period of ${scorecards.PERIODS.filter((p) => p !== 'all').join(', ')} months, or all`);
+	const card = await scorecards.scorecard(event.params.code, { months: period === 'all' ? 'all' : Number(period) }).catch((e) => {
 		if (e instanceof ServiceError && e.status === 404) error(404, e.message);
 		throw e;
 	});
