@@ -10,7 +10,7 @@ declare module 'jstat' {
 		normal: ContinuousDistribution;
 		beta: ContinuousDistribution;
 		binomial: { cdf(k: number, n: number, p: number): number; pdf(k: number, n: number, p: number): number };
-		percentile(values: number[], k: number, exclusive?: boolean): number;
+		quantiles(values: number[], probabilities: number[], alphap?: number, betap?: number): number[];
 	};
 	export default jStat;
 }

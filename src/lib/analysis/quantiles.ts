@@ -47,9 +47,19 @@ export function binomialInv(p: number, n: number, prob: number): number {
 	return n;
 }
 
-/** Sample quantile with linear interpolation between order statistics (R type 7), via jstat. */
+/**
+ * Sample quantile with linear interpolation between order statistics (R type 7, numpy's default), via
+ * jstat's `quantiles` with plotting positions alphap = betap = 1. `jStat.percentile` is not used: it stops
+ * interpolating below the top order statistic (n = 12, p = 0.95 gave 0.72 where numpy gives 0.8235) and
+ * returns the lower value as the median of two.
+ */
 export function sampleQuantile(values: ArrayLike<number>, p: number): number {
-	return jStat.percentile(Array.from(values), p);
+	if (!(p >= 0 && p <= 1)) throw new AnalysisError('bad-probability', `probability must be in [0, 1], got ${p}`);
+	const data = Array.from(values);
+	if (data.length === 0) throw new AnalysisError('empty-sample', 'a sample quantile needs at least one value');
+	if (data.some((v) => !Number.isFinite(v))) throw new AnalysisError('non-finite', 'a sample quantile needs finite values');
+	if (data.length === 1) return data[0];
+	return jStat.quantiles(data, [p], 1, 1)[0];
 }
 
 export function median(values: ArrayLike<number>): number {

@@ -13,6 +13,7 @@
 // D = sup_x |F_old(x) − F_new(x)| (Kolmogorov 1933, Smirnov 1948; scipy.stats.ks_2samp computes the same D).
 import { AnalysisError } from './errors';
 import { clopperPearson, type Interval } from './metrics';
+import { sampleQuantile } from './quantiles';
 
 export const TRANSFER_MINIMUMS = Object.freeze({ spectra: 10, lots: 3, sensitivity: 0.9 });
 
@@ -70,18 +71,10 @@ function checkRatios(values: readonly number[], what: string) {
 	});
 }
 
-/**
- * Sample quantile, Hyndman & Fan (1996) type 7: h = (n − 1)p, x₍⌊h⌋₎ + (h − ⌊h⌋)(x₍⌊h⌋+1₎ − x₍⌊h⌋₎) on the sorted
- * sample (0-based), numpy.percentile's default. Not jStat.percentile: it stops interpolating in the top gap
- * (jstat 1.9.6 returns x₍n−2₎ for p = 0.95, n = 12, where numpy gives x₍10₎ + 0.45·(x₍11₎ − x₍10₎)).
- */
+/** Sample quantile, Hyndman & Fan (1996) type 7 (numpy.percentile's default): the engine's shared one. */
 export function quantile7(values: readonly number[], p: number): number {
-	if (!(p >= 0 && p <= 1)) throw new AnalysisError('transfer-input', `a quantile's probability is between 0 and 1, got ${p}`);
 	if (!values.length) throw new AnalysisError('transfer-input', 'a quantile of no values');
-	const x = [...values].sort((a, b) => a - b);
-	const h = (x.length - 1) * p;
-	const lo = Math.floor(h);
-	return lo + 1 < x.length ? x[lo] + (h - lo) * (x[lo + 1] - x[lo]) : x[lo];
+	return sampleQuantile(values, p);
 }
 
 /** n, median, 95th percentile (type 7) and the share above 1 of a set of c/c_crit values. */

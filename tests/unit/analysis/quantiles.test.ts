@@ -55,6 +55,26 @@ describe('distribution quantiles (jstat) against printed tables', () => {
 		expect(sampleQuantile([5, 1, 3], 0.5)).toBe(3);
 	});
 
+	// numpy 2.4.6, numpy.percentile(a, 100 * p) with its default method 'linear' (R type 7), computed here:
+	// a = [0.12, 0.35, 0.07, 0.51, 0.22, 0.68, 0.44, 0.31, 0.72, 0.19, 0.95, 0.27]
+	test.each([
+		[0.05, 0.0975],
+		[0.25, 0.2125],
+		[0.5, 0.33],
+		[0.75, 0.5525],
+		[0.95, 0.8235],
+		[0.99, 0.9247]
+	])('sample quantile p = %s agrees with numpy.percentile to 1e-12 (top order statistics too)', (p, expected) => {
+		const a = [0.12, 0.35, 0.07, 0.51, 0.22, 0.68, 0.44, 0.31, 0.72, 0.19, 0.95, 0.27];
+		expect(sampleQuantile(a, p)).toBeCloseTo(expected, 12);
+	});
+
+	test('median of two values is their mean (numpy.percentile([3, 7], 50) = 5.0)', () => {
+		expect(sampleQuantile([3, 7], 0.5)).toBe(5);
+		expect(sampleQuantile([4], 0.9)).toBe(4);
+		expect(() => sampleQuantile([], 0.5)).toThrow(/at least one/);
+	});
+
 	test('probabilities outside (0, 1) are refused', () => {
 		expect(() => chi2Inv(1, 3)).toThrow(/probability/);
 	});
