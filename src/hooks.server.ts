@@ -1,6 +1,7 @@
 import type { Handle, HandleServerError, RequestEvent, ServerInit } from '@sveltejs/kit';
 import { sequence } from '@sveltejs/kit/hooks';
 import { randomUUID } from 'node:crypto';
+import '$lib/validation/messages';
 import { mayEnter } from '$lib/permissions';
 import { apiError } from '$lib/server/api';
 import { authHandle, SESSION_ABSOLUTE_SECONDS, type LotgateSession } from '$lib/server/auth';

@@ -6,6 +6,7 @@ import type { Browser, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { demoScenario } from '../../src/lib/demo';
 import { launchBrowser, newContext, signIn } from '../support/browser';
+import { shoot } from '../support/screens';
 
 const scenario = demoScenario();
 let browser: Browser;
@@ -105,6 +106,76 @@ describe('a table row selects its scan (item 13)', () => {
 		await expect(page.getByTestId('selection-count').first().textContent()).resolves.toContain('1 selected');
 		await expect(second.getAttribute('aria-selected')).resolves.toBe('true');
 		await expect(page.getByRole('button', { name: 'Exclude 1 selected' }).isEnabled()).resolves.toBe(true);
+		expect(page.errors).toEqual([]);
+		await page.context().close();
+	});
+});
+
+describe('validation messages in our own voice (item 18)', () => {
+	it('a too-long name says so in our words; deactivate and revoke refuse an empty reason beside the form, not in a browser bubble', async () => {
+		const page = await as('admin@demo.test');
+		await page.goto('/admin/users');
+		await page.getByLabel('Printed name').fill('N'.repeat(130));
+		await page.getByLabel('E-mail').fill(`long-${Date.now()}@demo.test`);
+		await page.getByRole('button', { name: 'Create user' }).click();
+		await expect(page.getByText('Keep this to 120 characters or fewer (this has 130)').textContent()).resolves.toBeTruthy();
+		expect(await page.content()).not.toContain('String must contain');
+
+		const buyerRow = page.getByTestId('users-table').locator('tr', { hasText: 'buyer@demo.test' });
+		await buyerRow.getByRole('button', { name: 'Manage' }).click();
+		const deactivate = page.locator('form[action="?/active"]');
+		await expect(deactivate.getAttribute('novalidate')).resolves.not.toBeNull();
+		await deactivate.getByRole('button', { name: 'Deactivate' }).click();
+		await expect(page.locator('.field-error', { hasText: 'Reason: Give a reason' }).first().textContent()).resolves.toBeTruthy();
+		expect((await db.query("SELECT active FROM users WHERE email = 'buyer@demo.test'")).rows[0].active).toBe(true);
+		await shoot(page, 'reading-admin-users-refusal');
+
+		await page.goto('/admin/instruments');
+		const dock = page.getByTestId('instruments-table').locator('tr', { hasText: 'NIR-DOCK-1' }).first();
+		await dock.getByRole('button', { name: 'Manage' }).click();
+		await page.locator('form[action="?/token"]').getByLabel('Label').fill(`reading test ${Date.now()}`);
+		await page.getByRole('button', { name: 'Create token' }).click();
+		await page.getByTestId('new-token-value').waitFor();
+		if (!(await page.locator('form[action="?/revoke"]').count())) await page.getByTestId('instruments-table').locator('tr', { hasText: 'NIR-DOCK-1' }).first().getByRole('button', { name: 'Manage' }).click();
+		const revoke = page.locator('form[action="?/revoke"]').first();
+		await expect(revoke.getAttribute('novalidate')).resolves.not.toBeNull();
+		await revoke.getByRole('button', { name: 'Revoke' }).click();
+		await expect(page.locator('.field-error', { hasText: 'Reason:' }).first().textContent()).resolves.toMatch(/Reason: .*reason/i);
+		expect(page.errors).toEqual([]);
+		await page.context().close();
+	});
+
+	it('a date in the wrong shape gives one message on the receive form', async () => {
+		const page = await as('technician@demo.test');
+		await page.goto('/lots/new');
+		// The browser's date input cannot hold a wrong shape; post the form as a script would.
+		const res = await page.request.post('/lots/new', { form: { material: 'LAC-200', supplier: 'NORDVIK', supplierLot: 'X-1', containers: '2', receivedAt: '04/03/2025', plan: 'every' }, headers: { origin: new URL(page.url()).origin, 'x-sveltekit-action': 'true' } });
+		const body = await res.text();
+		expect(body).toContain('Enter the date as YYYY-MM-DD');
+		expect(body).not.toContain('calendar date');
+		await page.context().close();
+	});
+});
+
+describe('one way of writing things (item 17)', () => {
+	const ZONED = /\b\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2} UTC\b/;
+	it('one caution beside the verdicts; containers as C01; verdicts in words; times in one style with the zone', async () => {
+		const page = await as('qa@demo.test');
+		await page.goto(`/lots/${internalOf.get('lac-wrong')}`);
+		await expect(page.locator('.caution', { hasText: 'does not replace' }).count()).resolves.toBe(1);
+		await expect(page.locator('section[aria-labelledby="outcome-h"] [data-testid="caution"]').count()).resolves.toBe(1);
+		const text = (await page.locator('main').textContent()) ?? '';
+		expect(text).not.toContain('not-this-material');
+		expect(text).toContain('not this material');
+		expect(text).toMatch(/C01/);
+		await page.locator('tr[data-container="1"] summary').click();
+		await expect(page.locator('tr[data-container="1"] ol li').first().textContent()).resolves.toMatch(ZONED);
+
+		await page.goto('/materials/LAC-200/versions/1?show=held-out');
+		const version = (await page.getByTestId('members-table').textContent()) ?? '';
+		expect(version).not.toMatch(/not-this-material/);
+		await expect(page.getByTestId('built-by').textContent()).resolves.toMatch(ZONED);
+
 		expect(page.errors).toEqual([]);
 		await page.context().close();
 	});

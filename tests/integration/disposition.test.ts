@@ -169,7 +169,7 @@ describe('disposition with electronic signature', () => {
 		// Every sampled container's verdict is printed on its row.
 		for (const c of (await s.lots.get(lot.id)).scans.filter((x) => x.counts)) {
 			const verdict = s.pdf.verdictText(c);
-			expect(text).toMatch(new RegExp(`\\n\\s*${c.container}\\s+${verdict.replace(/[()]/g, '\\$&')}`));
+			expect(text).toMatch(new RegExp(`\\n\\s*C${String(c.container).padStart(2, '0')}\\s+${verdict.replace(/[()]/g, '\\$&')}`));
 		}
 		expect(text).toContain('suspect: diluted-starch');
 

@@ -2,6 +2,8 @@
 // PostgreSQL cannot store NUL and silently replaces unpaired surrogates, so such text would be stored differently
 // from what was checked and hashed; bidi controls can make a name or lot number display as something else.
 import { z } from 'zod';
+// Every schema that takes text goes through this module, so loading it installs the product's own validation messages.
+import './messages';
 
 /**
  * - `name`: one line that identifies something (names, codes, lot numbers, labels, serials): no control characters at

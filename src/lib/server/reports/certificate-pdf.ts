@@ -1,6 +1,7 @@
 // The lot certificate as PDF (pdfkit), set in the Source Sans 3 WOFF files shipped by @fontsource (the package ships
 // WOFF and WOFF2 only; pdfkit reads WOFF), never system fonts. Pure function of its content: the same content always gives the same bytes, because
 // every date in the file (CreationDate, ModDate, and the /ID pdfkit derives from them) comes from the content.
+import { containerLabel } from '../../labels';
 import canonicalize from 'canonicalize';
 import PDFDocument from 'pdfkit';
 import { createHash } from 'node:crypto';
@@ -260,7 +261,7 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 	header();
 	for (const c of content.containers) {
 		const cells = [
-			String(c.container),
+			containerLabel(c.container),
 			verdictText(c),
 			pair(c.family?.t2, c.family?.t2Limit),
 			pair(c.family?.spe, c.family?.speLimit),
@@ -309,7 +310,7 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 			ensure(30);
 			doc.font('body').fontSize(8.5).fillColor(INK).text(
 				latin(
-					`Container ${container}, scan #${scan.scanId} ${scan.fileName} (SHA-256 ${scan.sha12}…), ${verdictText({ verdict: scan.verdict, profile: scan.profile, ambiguous: false })}: ` +
+					`Container ${containerLabel(container)}, scan #${scan.scanId} ${scan.fileName} (SHA-256 ${scan.sha12}…), ${verdictText({ verdict: scan.verdict, profile: scan.profile, ambiguous: false })}: ` +
 						`invalidated by ${v.proposedBy} because ${v.causeLabel}: "${v.description}"; approved by ${v.approvedBy}, ${v.atText}.`
 				),
 				left,
@@ -389,7 +390,7 @@ function drawPlot(
 	const noteText = offScale.length
 		? latin(
 				`Off scale, not drawn (beyond ${num(cap, 1)} on an axis): ` +
-					offScale.map((p) => `container ${p.container} (${verdictText({ verdict: p.verdict, profile: null, ambiguous: false })}; Nh·h/h0 = ${num(p.x, 1)}, Nq·v/v0 = ${num(p.y, 1)})`).join('; ') +
+					offScale.map((p) => `container ${containerLabel(p.container)} (${verdictText({ verdict: p.verdict, profile: null, ambiguous: false })}; Nh·h/h0 = ${num(p.x, 1)}, Nq·v/v0 = ${num(p.y, 1)})`).join('; ') +
 					'.'
 			)
 		: '';

@@ -19,6 +19,7 @@ import { proseText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
 import { queueMail } from '../mail';
 import { hasRole, type Actor } from './actor';
+import { containerLabel } from '../../labels';
 import * as audit from './audit';
 import { conflict, forbidden, invalid, notFound } from './errors';
 import * as containerResults from './container-results';
@@ -126,9 +127,9 @@ export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFindi
 		await queueMail(tx, {
 			kind: 'alert',
 			recipients,
-			subject: `Supplier alert (${level.severity}): ${lot.supplier_code}, lot ${lot.internal_lot} container ${scan.container} ${verdictText(scan)}`,
+			subject: `Supplier alert (${level.severity}): ${lot.supplier_code}, lot ${lot.internal_lot} container ${containerLabel(scan.container)} ${verdictText(scan)}`,
 			body: [
-				`Lot ${lot.internal_lot} of ${lot.material_code} from ${lot.supplier_code} · ${lot.supplier_name}: container ${scan.container} was screened ${verdictText(scan)}.`,
+				`Lot ${lot.internal_lot} of ${lot.material_code} from ${lot.supplier_code} · ${lot.supplier_name}: container ${containerLabel(scan.container)} was screened ${verdictText(scan)}.`,
 				scan.reason ? `Reason: ${scan.reason}` : '',
 				`Severity: ${level.severity}. Acknowledge and close the alert in Lotgate under Alerts (alert #${alertId}).`
 			]

@@ -3,6 +3,7 @@
 // chemometrician or admin proposes it with a cause category and a description; a QA user who did not propose it
 // approves or refuses it with an electronic signature. Each step is one transaction with its audit event; nothing is
 // deleted, and every step stays visible on the lot page, in the API, on the alert and on the certificate.
+import { containerLabel } from '../../labels';
 import { can } from '../../permissions';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
@@ -217,5 +218,5 @@ export async function queueItems(actor: Actor) {
 	);
 	return rows
 		.filter((r) => Number(r.proposed_by) !== actor.id)
-		.map((r) => ({ href: `/lots/${r.internal_lot}#scan-${r.scan_id}`, label: `${r.internal_lot} · container ${r.container}: invalidation to decide`, detail: `proposed by ${r.name} (${CAUSE_LABELS[r.cause]})` }));
+		.map((r) => ({ href: `/lots/${r.internal_lot}#scan-${r.scan_id}`, label: `${r.internal_lot} · container ${containerLabel(r.container)}: invalidation to decide`, detail: `proposed by ${r.name} (${CAUSE_LABELS[r.cause]})` }));
 }

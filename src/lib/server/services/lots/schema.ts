@@ -1,5 +1,6 @@
 // Lots: statuses, identity words, the receipt schema and the stored plan and row.
 import { z } from 'zod';
+import { calendarDate } from '../../../validation/date';
 import { nameText, proseText } from '../../../validation/text';
 import { PLAN_KINDS, type PlanKind, type SamplingPlan } from '../../../analysis/sampling';
 
@@ -30,11 +31,7 @@ export type ScanVerdict = (typeof VALID_VERDICTS)[number] | 'unusable' | 'not-sc
 
 const ref = z.union([z.number().int().positive(), nameText(z.string().trim().min(1, 'Choose one').max(60))]);
 
-export const isoDate = z
-	.string()
-	.trim()
-	.regex(/^\d{4}-\d{2}-\d{2}$/, 'Use a date, YYYY-MM-DD')
-	.refine((s) => !Number.isNaN(Date.parse(`${s}T00:00:00Z`)), 'Not a calendar date');
+export const isoDate = calendarDate();
 
 const planInput = z.preprocess(
 	(v) => (v == null || v === '' ? { kind: 'every' } : typeof v === 'string' ? { kind: v } : v),
