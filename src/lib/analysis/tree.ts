@@ -113,8 +113,9 @@ export function treeDepth(root: TreeNodeView): number {
  * The name of a result, from the top-level word down the path, e.g. "suspect › diluted › starch",
  * "genuine › site-b", or "suspect › diluted › unknown sub-profile" where a level answered "none of these".
  */
-export function describePath(verdict: Verdict, path: string[], levels: LevelEvidence[]): string {
-	const parts: string[] = [verdict];
+export function describePath(verdict: Verdict, path: string[], levels: LevelEvidence[], word: (verdict: Verdict) => string = (v) => v): string {
+	// `word` lets pages and certificates write the verdict as people read it; the CLI keeps the key.
+	const parts: string[] = [word(verdict)];
 	// the genuine class's own name adds nothing after the word "genuine"
 	const named = verdict === 'genuine' ? path.slice(1) : path;
 	parts.push(...named);

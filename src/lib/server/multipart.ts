@@ -37,13 +37,19 @@ export interface Multipart {
 
 const MB = 1024 * 1024;
 
-const badBody = (e: Error) => new ServiceError(400, 'bad-multipart', `The multipart body could not be read (${e?.message ?? e})`, 'file');
+// busboy refuses a part header holding a control character (NUL, BEL, …) as "Malformed part header". Browsers and
+// FormData put the file name there unescaped, so that is the usual cause: name it as the file name problem it is.
+const badBody = (e: Error) =>
+	e?.message === 'Malformed part header'
+		? new ServiceError(400, 'invalid-file-name', 'A part header holds a control character, usually in the file name; rename the file', 'file')
+		: new ServiceError(400, 'bad-multipart', `The multipart body could not be read (${e?.message ?? e})`, 'file');
 
 export const tooLargeMessage = (name: string, limit: number) => `${name}: the file is larger than the limit of ${+(limit / MB).toFixed(2)} MB`;
 
 /**
  * Reads a multipart body as it streams. Errors: 415 when the body is not multipart, 413 `too-large` naming the file
- * (stops reading at once), 400 `too-many-files`, 400 `bad-multipart` for a malformed body.
+ * (stops reading at once), 400 `too-many-files`, 400 `invalid-file-name` for a control character in a part header, 400 `bad-multipart` for any
+ * other malformed body.
  */
 export async function readMultipart(request: Request, limits: MultipartLimits): Promise<Multipart> {
 	const type = request.headers.get('content-type') ?? '';

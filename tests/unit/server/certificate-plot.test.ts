@@ -88,7 +88,7 @@ describe('certificate distance plot', () => {
 	it('lists off-scale containers in a note under the plot instead of one shared corner marker', async () => {
 		const { text, boxes } = words(await renderCertificate(content(lot)), 'note');
 		const flat = text.replace(/\s+/g, ' ');
-		expect(flat).toContain('Off scale, not drawn (beyond 32.0 on an axis): container 31 (not this material; Nh·h/h0 = 900.0, Nq·v/v0 = 40.0); container 32 (not this material; Nh·h/h0 = 700.0, Nq·v/v0 = 800.0).');
+		expect(flat).toContain('Off scale, not drawn (beyond 32.0 on an axis): container C31 (not this material; Nh·h/h0 = 900.0, Nq·v/v0 = 40.0); container C32 (not this material; Nh·h/h0 = 700.0, Nq·v/v0 = 800.0).');
 		// No "(off scale)" labels inside the plot any more.
 		expect(flat).not.toContain('(off scale)');
 		// The note sits below the plot's x-axis title.

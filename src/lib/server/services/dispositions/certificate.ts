@@ -2,6 +2,7 @@
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { SCREENING_CAUTION } from '../../../caution';
+import { verdictWord } from '../../../labels';
 import { formatZoned } from '../../../signature-time';
 import { sequelize } from '../../db';
 import { describePath, type Identification, type LevelEvidence, type Verdict } from '../../../analysis';
@@ -24,7 +25,7 @@ function withTreeEvidence(
 ): string | null {
 	if (!r) return null;
 	const parts = r.reason ? [r.reason] : [];
-	if (r.levels && r.levels.length > 1) parts.push(`path: ${describePath(r.verdict as Verdict, r.path ?? [], r.levels)}`);
+	if (r.levels && r.levels.length > 1) parts.push(`path: ${describePath(r.verdict as Verdict, r.path ?? [], r.levels, verdictWord)}`);
 	const id = identificationText(r.identification, materialCode ?? 'this material');
 	if (id) parts.push(`resembles (evidence only): ${id}`);
 	return parts.length ? parts.join('; ') : null;

@@ -1,4 +1,5 @@
 // Lots: one lot by id or internal number, with its plan, containers and every scan.
+import { verdictWord } from '../../../labels';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { describePath, type Identification, type LevelEvidence, type Verdict } from '../../../analysis';
 import { identificationText } from '../identification';
@@ -80,7 +81,7 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 			invalidation: invalidationOf.get(Number(r.id)) ?? null,
 			statistics: family || classes ? { family: statsView(family), classes: Object.fromEntries(Object.entries(classes ?? {}).map(([k, s]) => [k, statsView(s)!])) } : null,
 			path: (r.path as string[] | null) ?? [],
-			pathLabel: describePath(r.verdict as Verdict, (r.path as string[] | null) ?? [], (r.levels as LevelEvidence[] | null) ?? []),
+			pathLabel: describePath(r.verdict as Verdict, (r.path as string[] | null) ?? [], (r.levels as LevelEvidence[] | null) ?? [], verdictWord),
 			levels: ((r.levels as LevelEvidence[] | null) ?? []).map(levelView),
 			identification: r.identification ? { ...(r.identification as Identification), text: identificationText(r.identification as Identification, materialCode) } : null,
 			modelVersion: r.model_version_id ? { id: Number(r.model_version_id), label: `${materialCode} v${r.model_version}` } : null,
