@@ -54,4 +54,46 @@ describe('the seeded demo', () => {
 			}
 		}
 	});
+
+	// Issue 14 §5: the monitoring demo, read back through the services the pages use.
+	it('the drifting supplier signals on the first lot that clearly leaves its history, while every container reads genuine', async () => {
+		const drift = await import('../../src/lib/server/services/drift');
+		const { DRIFT_STARCH, DRIFT_SUPPLIER, DRIFT_MATERIAL } = await import('../../src/lib/demo/monitoring');
+		const c = await drift.chart(DRIFT_SUPPLIER.code, DRIFT_MATERIAL);
+		expect(c.lots).toHaveLength(DRIFT_STARCH.length);
+		const first = c.lots.findIndex((l) => l.signal);
+		// Lots 1–6 hold no starch: none of them may fire; the first lot with 8 % starch (lot 9) must.
+		expect(first).toBe(DRIFT_STARCH.indexOf(0.08));
+		expect(c.lots.slice(0, 5).every((l) => l.limits === null)).toBe(true);
+		// Flagged before a container fails: every lot, the signalling ones too, meets identity.
+		expect(c.lots.map((l) => l.identity)).toEqual(Array(DRIFT_STARCH.length).fill('meets'));
+		expect(c.state).toBe('signal');
+		// The statistic rises with the starch: lot 10 lies above lot 9, which lies above every starch-free lot.
+		const free = c.lots.slice(0, DRIFT_STARCH.lastIndexOf(0) + 1).map((l) => l.value);
+		expect(c.lots[first].value).toBeGreaterThan(Math.max(...free));
+		expect(c.lots[first + 1].value).toBeGreaterThan(c.lots[first].value);
+		expect(await drift.forLot(c.lots[first].lotId)).toMatchObject({ rule: c.lots[first].signal!.rule });
+	});
+
+	it('NIR-BENCH-2 cannot screen: its wavelength check is overdue (linearity and noise are current)', async () => {
+		const checks = await import('../../src/lib/server/services/instrument-checks');
+		const s = await checks.status('NIR-BENCH-2');
+		expect(s.qualified).toBe(false);
+		expect(s.reason).toMatch(/^instrument not qualified: wavelength check overdue since \d{4}-\d{2}-\d{2}$/);
+		expect(Object.fromEntries(s.kinds.map((k) => [k.kind, k.state]))).toEqual({ wavelength: 'overdue', linearity: 'current', noise: 'current' });
+	});
+
+	it('LAC-200 has a transfer check to NIR-DOCK-2 that meets the criteria and waits for QA', async () => {
+		const transfers = await import('../../src/lib/server/services/transfers');
+		const versions = await import('../../src/lib/server/services/model-versions');
+		const materials = await import('../../src/lib/server/services/materials');
+		const approved = await versions.approvedFor((await materials.get('LAC-200')).id);
+		const view = await transfers.forVersion(approved!.versionId);
+		const t = view.transfers.filter((x) => x.instrument === 'NIR-DOCK-2');
+		expect(t).toHaveLength(1);
+		expect(t[0].state).toBe('proposed');
+		expect(t[0].evaluation.spectra).toBe(12);
+		expect(t[0].evaluation.lots).toHaveLength(3);
+		expect(view.approvedFor.map((a) => a.name)).not.toContain('NIR-DOCK-2');
+	});
 });

@@ -157,13 +157,15 @@ export function sampleState(lot: State, rng: Rng): State {
 }
 
 // Instrument differences: a small wavelength offset, baseline and noise level.
-const INSTRUMENT_EFFECT: Record<string, { shift: number; offset: number; noise: number }> = {
+export const INSTRUMENT_EFFECT: Record<string, { shift: number; offset: number; noise: number }> = {
 	'NIR-DOCK-1': { shift: 0.3, offset: 0.012, noise: 1.5e-4 },
 	'NIR-BENCH-1': { shift: 0, offset: 0, noise: 6e-5 },
-	'RAMAN-1': { shift: 0, offset: 0, noise: 4e-3 }
+	'RAMAN-1': { shift: 0, offset: 0, noise: 4e-3 },
+	// A second dock instrument (monitoring demo): its wavelength scale sits a little further off than NIR-DOCK-1's.
+	'NIR-DOCK-2': { shift: 0.6, offset: 0.018, noise: 1.6e-4 }
 };
 
-function nirPure(kind: Kind, axis: Float64Array, s: State, shift: number): Float64Array {
+export function nirPure(kind: Kind, axis: Float64Array, s: State, shift: number): Float64Array {
 	const out = new Float64Array(axis.length);
 	const lactose = (scale: number) => {
 		addBands(out, axis, NIR.lactose, scale, shift, s.width);

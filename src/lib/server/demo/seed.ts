@@ -90,6 +90,7 @@ export async function seedDemo(log: (line: string) => void = console.log) {
 	await (await import('./method-development')).seedMethodDevelopment((await import('../../demo')).demoScenario().libraryFiles, demoPassword(), log);
 	await (await import('./lots-demo')).seedDemoLots(log);
 	await (await import('./disposition-demo')).seedDemoDispositions(demoPassword(), log);
+	await (await import('./monitoring-demo')).seedMonitoringDemo(log);
 	// The release above writes an audit checkpoint in the background; the caller closes the database next.
 	await (await import('../audit-checkpoint')).checkpointsSettled();
 	log(`[seed] demo scenario "${DEMO_COMPANY}" is in place`);

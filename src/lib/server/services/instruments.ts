@@ -19,7 +19,9 @@ export const instrumentSchema = z.object({
 	technique: z.enum(['NIR', 'Raman', 'mid-IR']),
 	serial: nameText(z.string().trim().min(1, 'Enter the serial number').max(80)),
 	axisUnit: z.enum(['nm', 'cm-1', 'um']),
-	qualificationDue: dateText
+	qualificationDue: dateText,
+	/** The day the first performance checks are due (./instrument-checks.ts); by default 30 days after registration. */
+	checksDueFrom: dateText.optional()
 });
 export type InstrumentInput = z.input<typeof instrumentSchema>;
 

@@ -75,6 +75,8 @@ export class Instrument extends Model {
 	declare serial: string;
 	declare axisUnit: 'nm' | 'cm-1' | 'um';
 	declare qualificationDue: string;
+	/** First performance checks due by (the column defaults to 30 days after registration). */
+	declare checksDueFrom?: string;
 	declare active: boolean;
 	declare createdAt: Date;
 }
@@ -205,6 +207,8 @@ export function defineModels(sequelize: Sequelize) {
 			serial: { type: TEXT, allowNull: false },
 			axisUnit: { type: TEXT, allowNull: false },
 			qualificationDue: { type: DATEONLY, allowNull: false },
+			// NOT NULL with a default in the table; left out of an insert when not given.
+			checksDueFrom: { type: DATEONLY },
 			active: { type: BOOLEAN, allowNull: false, defaultValue: true },
 			createdAt: createdAt()
 		},
