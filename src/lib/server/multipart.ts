@@ -6,6 +6,7 @@ import { createHash } from 'node:crypto';
 import { Readable } from 'node:stream';
 import type { ReadableStream as NodeReadableStream } from 'node:stream/web';
 import { ServiceError } from './services/errors';
+import { streamedTooLargeMessage } from './upload-limits';
 
 export interface StreamedFile {
 	field: string;
@@ -35,16 +36,12 @@ export interface Multipart {
 	field(name: string): string | null;
 }
 
-const MB = 1024 * 1024;
-
 // busboy refuses a part header holding a control character (NUL, BEL, …) as "Malformed part header". Browsers and
 // FormData put the file name there unescaped, so that is the usual cause: name it as the file name problem it is.
 const badBody = (e: Error) =>
 	e?.message === 'Malformed part header'
 		? new ServiceError(400, 'invalid-file-name', 'A part header holds a control character, usually in the file name; rename the file', 'file')
 		: new ServiceError(400, 'bad-multipart', `The multipart body could not be read (${e?.message ?? e})`, 'file');
-
-export const tooLargeMessage = (name: string, limit: number) => `${name}: the file is larger than the limit of ${+(limit / MB).toFixed(2)} MB`;
 
 /**
  * Reads a multipart body as it streams. Errors: 415 when the body is not multipart, 413 `too-large` naming the file
@@ -97,7 +94,7 @@ export async function readMultipart(request: Request, limits: MultipartLimits): 
 					stream.on('limit', () => {
 						over = true;
 						chunks.length = 0;
-						if (limits.oversize !== 'mark') fail(new ServiceError(413, 'too-large', tooLargeMessage(name, limits.fileBytes), 'file'));
+						if (limits.oversize !== 'mark') fail(new ServiceError(413, 'too-large', streamedTooLargeMessage(name, limits.fileBytes), 'file'));
 					});
 					stream.on('error', (e: Error) => {
 						fail(badBody(e));

@@ -1,6 +1,6 @@
 // Request-level limits applied in hooks.server.ts before any route reads the body: size per route, enforced on the
 // declared Content-Length and again on the bytes that actually stream in (a chunked body declares none).
-import { maxBatchBytes, maxFileBytes } from './services/spectra';
+import { maxBatchBytes, maxSingleUploadBytes } from './upload-limits';
 
 const KB = 1024;
 export const LOGIN_BODY_BYTES = 4 * KB;
@@ -17,7 +17,7 @@ export function bodyLimit(path: string, contentType: string): number {
 	const type = contentType.split(';')[0].trim().toLowerCase();
 	if (type === 'multipart/form-data') {
 		if (BATCH_UPLOADS.some((r) => r.test(path))) return maxBatchBytes();
-		if (SINGLE_UPLOADS.some((r) => r.test(path))) return maxFileBytes() + 64 * KB;
+		if (SINGLE_UPLOADS.some((r) => r.test(path))) return maxSingleUploadBytes();
 	}
 	if (type === 'application/json' || path.startsWith('/api/')) return JSON_BODY_BYTES;
 	return FORM_BODY_BYTES;

@@ -8,7 +8,7 @@ import type { ParsedFile, ParseOptions } from './types';
 
 export type { AxisUnit, ParsedFile, ParsedSpectrum, ParseOptions, SpectrumFormat, Technique } from './types';
 export type { SpectrumErrorCode } from './errors';
-export { SpectrumFileError } from './errors';
+export { isSpectrumErrorCode, SPECTRUM_ERROR_CODES, SpectrumFileError } from './errors';
 export { detectFormat } from './detect';
 export { unitHint } from './csv';
 

@@ -1,7 +1,7 @@
 // Each refusal with a file that triggers it: code, file name and line. Data lines of the
 // hand-written JCAMP-DX fixtures start on line 15 (labels per McDonald & Wilks 1988, §5).
 import { describe, expect, test } from 'vitest';
-import { parseSpectrumFile, SpectrumFileError, type SpectrumErrorCode } from '../../../src/lib/spectra';
+import { isSpectrumErrorCode, parseSpectrumFile, SPECTRUM_ERROR_CODES, SpectrumFileError, type SpectrumErrorCode } from '../../../src/lib/spectra';
 import { bytes, fixture, jcamp, refusal } from './helpers';
 
 const cases: [file: string, code: SpectrumErrorCode, line: number | undefined, options?: { minPoints?: number }][] = [
@@ -62,6 +62,14 @@ describe('refusals name the file, the line where known, and the problem', () => 
 		const listed: SpectrumErrorCode[] = ['empty', 'binary', 'unknown-format', 'truncated', 'npoints-mismatch', 'firstx-mismatch', 'lastx-mismatch', 'checkvalue', 'axis-not-monotonic', 'axis-duplicate', 'non-finite', 'too-few-points', 'unknown-unit', 'peak-table', 'multi-block', 'link-block', 'missing-label', 'bad-number', 'csv-shape'];
 		const covered = new Set(cases.map((c) => c[1]));
 		expect(listed.filter((c) => !covered.has(c))).toEqual([]);
+	});
+
+	test('the exported code list (what the scan path tests membership with) holds every code a file triggers, and nothing else', () => {
+		const triggered = [...new Set(cases.map((c) => c[1]))].sort();
+		expect([...SPECTRUM_ERROR_CODES].sort()).toEqual(triggered);
+		expect(triggered.every(isSpectrumErrorCode)).toBe(true);
+		// the intake's own refusals are not parser codes: such a scan is refused, not kept as unreadable evidence
+		for (const code of ['too-large', 'duplicate', 'wrong-technique', 'conflict']) expect(isSpectrumErrorCode(code)).toBe(false);
 	});
 
 	test('messages are in plain words', () => {

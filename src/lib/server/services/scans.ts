@@ -1,7 +1,6 @@
 // Scans of a lot's containers: store the raw file (through the intake), screen it at once with the material's approved
 import { can } from '../../permissions';
 // model version, keep the verdict with its full statistics, and recompute the lot status — one transaction per scan.
-import { createHash } from 'node:crypto';
 import { LRUCache } from 'lru-cache';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { z } from 'zod';
@@ -104,74 +103,8 @@ async function instrumentOf(id: number | null | undefined, tx: Transaction): Pro
 	return rows[0];
 }
 
-/** A file that does not parse is still kept byte for byte as the scan's evidence, with no points. */
-async function storeUnparsed(tx: Transaction, actor: Actor, lotId: number, file: ScanFile, instrument: InstrumentRow | null, fallbackUnit: 'nm' | 'cm-1' | 'um', reason: string, format: 'unparsed' | 'refused') {
-	const sha256 = file.sha256 ?? createHash('sha256').update(file.bytes).digest('hex');
-	const dup = await sequelize().query<{ id: number }>("SELECT id FROM spectra WHERE context = 'lot' AND context_id = :lotId AND sha256 = :sha256 LIMIT 1", {
-		replacements: { lotId, sha256 },
-		type: QueryTypes.SELECT,
-		transaction: tx
-	});
-	if (dup[0]) throw conflict(`${file.fileName}: the same file was already uploaded to this lot`, 'file');
-	const [row] = await sequelize().query<{ id: number }>(
-		`INSERT INTO spectra (sha256, raw, file_name, format, row_index, points, axis, intensities, unit, meta, instrument_id, uploaded_by, context, context_id)
-		 VALUES (:sha256, :raw, :fileName, :format, 0, 0, '{}', '{}', :unit, :meta, :instrumentId, :uploadedBy, 'lot', :lotId) RETURNING id`,
-		{
-			replacements: {
-				sha256,
-				raw: Buffer.from(file.bytes.buffer, file.bytes.byteOffset, file.bytes.byteLength), // the same memory, no copy
-				fileName: file.fileName,
-				unit: instrument?.axis_unit ?? fallbackUnit,
-				format,
-				meta: JSON.stringify({ refusedBecause: reason }),
-				instrumentId: instrument?.id ?? null,
-				uploadedBy: actor.id,
-				lotId
-			},
-			type: QueryTypes.SELECT,
-			transaction: tx
-		}
-	);
-	return { id: Number(row.id), sha256, title: null as string | null };
-}
-
-type Ingested =
-	| { ok: true; spectrum: { id: number; sha256: string; title: string | null; technique: string | null; axis: number[]; values: number[]; unit: 'nm' | 'cm-1' | 'um'; yUnit: string | null } }
-	| { ok: false; reason: string; format: 'unparsed' | 'refused' };
-
-// The spectrum parser's refusal codes (src/lib/spectra/errors.ts): such a file is kept as an unusable scan, not refused.
-const PARSE_CODES = new Set([
-	'empty', 'binary', 'unknown-format', 'truncated', 'npoints-mismatch', 'firstx-mismatch', 'lastx-mismatch', 'x-check', 'firsty-mismatch',
-	'checkvalue', 'axis-not-monotonic', 'axis-duplicate', 'non-finite', 'too-few-points', 'unknown-unit', 'peak-table', 'unsupported-table',
-	'multi-block', 'link-block', 'missing-label', 'unsupported-version', 'bad-number', 'csv-shape'
-]);
-
-/**
- * Stores the scan's file through the intake service, inside the scan's transaction. Unlike a library upload, a file
- * that does not parse (or whose own technique contradicts its instrument) is not refused: the caller keeps its bytes
- * as an unusable scan with the reason. Gaps are allowed, as `lotgate screen` allows them, so the engine decides
- * whether the model range is covered and names the missing interval. The values screened are the stored ones.
- */
-async function ingestForScan(tx: Transaction, actor: Actor, lotId: number, file: ScanFile, instrument: InstrumentRow | null): Promise<Ingested> {
-	let stored: intake.StoredSpectrum[];
-	try {
-		stored = await intake.ingestFile(actor, { bytes: file.bytes, sha256: file.sha256, fileName: file.fileName, instrumentId: instrument?.id ?? null, context: 'lot', contextId: lotId, allowGaps: true }, tx);
-	} catch (e) {
-		if (e instanceof intake.IntakeError && PARSE_CODES.has(e.code)) return { ok: false, reason: e.message, format: 'unparsed' };
-		if (e instanceof intake.IntakeError && e.code === 'wrong-technique') return { ok: false, reason: `wrong technique: ${e.message}`, format: 'refused' };
-		throw e;
-	}
-	if (stored.length !== 1) throw invalid(`${file.fileName} holds ${stored.length} spectra; a container scan is one spectrum`, 'file');
-	const s = stored[0];
-	const [row] = await sequelize().query<{ axis: (number | null)[]; intensities: (number | null)[]; unit: 'nm' | 'cm-1' | 'um'; y_unit: string | null }>('SELECT axis, intensities, unit, y_unit FROM spectra WHERE id = :id', {
-		replacements: { id: s.id },
-		type: QueryTypes.SELECT,
-		transaction: tx
-	});
-	const nan = (x: number | null) => (x == null ? Number.NaN : x);
-	return { ok: true, spectrum: { id: s.id, sha256: s.sha256, title: s.title, technique: s.technique, axis: row.axis.map(nan), values: row.intensities.map(nan), unit: row.unit, yUnit: row.y_unit } };
-}
-
+// Non-finite values are gaps: the stored row holds them as NULL and they screen as NaN (the engine names a missing interval).
+const gapsAsNaN = (a: ArrayLike<number>) => Array.from(a, (x) => (Number.isFinite(x) ? x : Number.NaN));
 
 /** Adds one scan of one container and screens it; answers the stored scan and the lot's new status. */
 export async function add(actor: Actor, lotRef: number | string, file: ScanFile) {
@@ -212,20 +145,27 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 			headerConfirmation: file.headerConfirmation
 		});
 
-		let stored: { id: number; sha256: string; title: string | null };
 		let result: ScreenResult | null = null;
 		let verdict: ScanVerdict;
 		let reason: string | null = null;
 		let gate: qualityGates.GateOutcome | null = null;
 		let gateReason: string | null = null;
-		const ingested = await ingestForScan(tx, actor, lotId, file, instrument);
+		// The intake stores the file inside this transaction (a file that does not read is kept as an unusable scan) and
+		// hands back what it parsed. Gaps are allowed, as `lotgate screen` allows them, so the engine decides whether the
+		// model range is covered and names the missing interval.
+		const ingested = await intake.ingestScanFile(
+			actor,
+			{ bytes: file.bytes, sha256: file.sha256, fileName: file.fileName, instrumentId: instrument?.id ?? null, context: 'lot', contextId: lotId, allowGaps: true },
+			material.technique === 'Raman' ? 'cm-1' : 'nm',
+			tx
+		);
+		const stored: { id: number; sha256: string; title: string | null } = ingested.stored;
 		if (!ingested.ok) {
-			stored = await storeUnparsed(tx, actor, lotId, file, instrument, material.technique === 'Raman' ? 'cm-1' : 'nm', ingested.reason, ingested.format);
 			verdict = 'unusable';
 			reason = ingested.format === 'unparsed' ? `the file could not be read: ${ingested.reason}` : ingested.reason;
 		} else {
-			const s = ingested.spectrum;
-			stored = { id: s.id, sha256: s.sha256, title: s.title };
+			const p = ingested.spectrum;
+			const s = { id: stored.id, title: p.title, technique: p.technique, axis: gapsAsNaN(p.axis), values: gapsAsNaN(p.values), unit: p.unit, yUnit: p.yUnit ?? null };
 			if (instrument && instrument.technique !== material.technique) {
 				verdict = 'unusable';
 				reason = `wrong technique: instrument ${instrument.name} measures ${instrument.technique}, but ${material.code} is identified by ${material.technique}`;

@@ -3,25 +3,18 @@ import { can } from '../../permissions';
 // one transaction and one audit event per file. Library and lot workflows reuse `ingestFile` inside their own transaction.
 import { createHash } from 'node:crypto';
 import { QueryTypes, UniqueConstraintError } from 'sequelize';
-import { parseSpectrumFile, SpectrumFileError, type AxisUnit, type ParsedFile } from '../../spectra';
+import { isSpectrumErrorCode, parseSpectrumFile, SpectrumFileError, type AxisUnit, type ParsedFile, type ParsedSpectrum } from '../../spectra';
 import { sequelize, transaction, type Transaction } from '../db';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
-import { forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
+import { conflict, forbidden, invalid, notFound, ServiceError, storableFileName } from './errors';
 import * as instruments from './instruments';
 import { displayFileName } from '../../validation/text';
-import { config } from '../config';
+import { fileTooLargeMessage, maxBatchFiles, maxFileBytes } from '../upload-limits';
 
 export type SpectrumContext = 'loose' | 'library' | 'lot';
 const CONTEXTS: SpectrumContext[] = ['loose', 'library', 'lot'];
 
-const MB = 1024 * 1024;
-/** Largest accepted file (LOTGATE_MAX_UPLOAD_MB, default 20 MB). Read per call so tests and ops can change it. */
-export const maxFileBytes = () => Math.round(config().LOTGATE_MAX_UPLOAD_MB * MB);
-/** Most files in one request (LOTGATE_MAX_BATCH_FILES, default 200). */
-export const maxBatchFiles = () => Math.floor(config().LOTGATE_MAX_BATCH_FILES);
-/** Largest whole request (LOTGATE_MAX_BATCH_MB, default 200 MB): a batch is read into memory once before parsing. */
-export const maxBatchBytes = () => Math.round(config().LOTGATE_MAX_BATCH_MB * MB);
 
 /** A refused file: the shared error shape plus the file (and line, where the parser knows it). */
 export class IntakeError extends ServiceError {
@@ -63,6 +56,8 @@ export interface IngestInput {
 	/** Keep non-finite values as gaps (stored as NULL) when the material's recipe allows them. */
 	allowGaps?: boolean;
 	minPoints?: number;
+	/** Lot scans only (ingestScanFile): keep an unreadable file as evidence, in this unit when no instrument names one. */
+	keepUnreadable?: { unit: AxisUnit };
 }
 
 export interface StoredSpectrum {
@@ -177,17 +172,91 @@ function duplicateError(fileName: string, context: SpectrumContext, contextId: n
 	);
 }
 
+/** What the intake stored, and the spectra it parsed (so no caller reads them back from the database). */
+export interface Ingested {
+	stored: StoredSpectrum[];
+	/** `stored[i]` holds `parsed.spectra[i]`. */
+	parsed: ParsedFile;
+}
+
 /**
  * Stores one file: raw bytes and SHA-256, and one row per spectrum it holds (a CSV matrix holds many). The raw bytes
  * are kept once, on the row with row_index 0; the other rows of the same file point to it by (context, sha256), so a
  * large matrix is not stored once per row. Within `tx` when given (the caller's unit of work), else in its own.
  */
-export function ingestFile(actor: Actor, input: IngestInput, tx?: Transaction): Promise<StoredSpectrum[]> {
-	return ingest(actor, input, tx);
+export async function ingestFile(
+	actor: Actor,
+	input: Omit<IngestInput, 'keepUnreadable'>,
+	tx?: Transaction,
+	checked?: { instrument: instruments.PublicInstrument | null }
+): Promise<StoredSpectrum[]> {
+	const done = await ingest(actor, { ...input, keepUnreadable: undefined }, tx, checked);
+	if (done.refused) throw new Error('a file is kept unread only for a lot scan (ingestScanFile)');
+	return done.stored;
+}
+
+/** A lot scan's file: stored and parsed, or kept byte for byte as unreadable evidence with the reason. */
+export type ScanIngested =
+	| { ok: true; stored: StoredSpectrum; spectrum: ParsedSpectrum }
+	| { ok: false; stored: Kept; format: 'unparsed' | 'refused'; reason: string };
+
+/**
+ * Stores a container scan's file inside the scan's transaction. Unlike a library upload, a file that does not parse
+ * (or whose own technique contradicts its instrument) is not refused: its bytes are kept as an unusable scan with the
+ * reason and no points, in `fallbackUnit` when no instrument names the unit. A file holding several spectra is refused.
+ */
+export async function ingestScanFile(actor: Actor, input: Omit<IngestInput, 'keepUnreadable'>, fallbackUnit: AxisUnit, tx: Transaction): Promise<ScanIngested> {
+	const done = await ingest(actor, { ...input, keepUnreadable: { unit: fallbackUnit } }, tx);
+	if (done.refused) return { ok: false, stored: done.kept, format: done.refused.format, reason: done.refused.reason };
+	if (done.stored.length !== 1) throw invalid(`${done.stored[0]?.fileName ?? input.fileName} holds ${done.stored.length} spectra; a container scan is one spectrum`, 'file');
+	return { ok: true, stored: done.stored[0], spectrum: done.parsed.spectra[0] };
+}
+
+type Refusal = { format: 'unparsed' | 'refused'; reason: string };
+/** The row an unreadable file is kept in. */
+type Kept = { id: number; sha256: string; title: null };
+type Done = (Ingested & { refused: null }) | { kept: Kept; parsed: null; refused: Refusal };
+
+/** One row of the spectra table: a parsed spectrum, or (points 0, empty arrays) an unreadable file kept as evidence. */
+interface SpectrumRow {
+	sha256: string;
+	raw: Buffer;
+	fileName: string;
+	format: string;
+	rowIndex: number;
+	axis: ArrayLike<number>;
+	values: ArrayLike<number>;
+	unit: AxisUnit;
+	yUnit: string | null;
+	title: string | null;
+	technique: string | null;
+	acquiredAt: string | null;
+	meta: Record<string, string>;
+	instrumentId: number | null;
+	uploadedBy: number | null;
+	context: SpectrumContext;
+	contextId: number | null;
+}
+
+/** The one INSERT into spectra. */
+async function insertRow(t: Transaction, r: SpectrumRow): Promise<number> {
+	const [row] = await sequelize().query<{ id: string }>(
+		`INSERT INTO spectra (sha256, raw, file_name, format, row_index, points, axis, intensities, unit, y_unit, title, technique,
+		                      acquired_at, meta, instrument_id, uploaded_by, context, context_id)
+		 VALUES ($sha256, $raw, $fileName, $format, $rowIndex, $points, $axis::float8[], $values::float8[], $unit, $yUnit, $title, $technique,
+		         $acquiredAt::timestamptz, $meta::jsonb, $instrumentId::integer, $uploadedBy::integer, $context, $contextId::integer)
+		 RETURNING id`,
+		{
+			bind: { ...r, points: r.axis.length, axis: float8ArrayBinary(r.axis), values: float8ArrayBinary(r.values), meta: JSON.stringify(r.meta) },
+			type: QueryTypes.SELECT,
+			transaction: t
+		}
+	);
+	return Number(row.id);
 }
 
 /** `checked`: the source instrument already resolved and checked by the caller for the whole batch. */
-async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checked?: { instrument: instruments.PublicInstrument | null }): Promise<StoredSpectrum[]> {
+async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checked?: { instrument: instruments.PublicInstrument | null }): Promise<Done> {
 	if (!mayUpload(actor)) throw forbidden('Only a technician, a chemometrician, an admin or an instrument token uploads spectra');
 	const fileName = storableFileName(input.fileName);
 	if (!CONTEXTS.includes(input.context)) throw invalid(`Unknown context "${input.context}"`, 'context');
@@ -196,10 +265,12 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 
 	// Source and parse before the transaction: no connection is held while the CPU decodes the file.
 	const instrument = checked?.instrument !== undefined ? checked.instrument : await sourceInstrument(actor, input.instrumentId, tx);
-	const parsed = parseOrRefuse(input.bytes, fileName, { allowGaps: input.allowGaps, minPoints: input.minPoints, unit: instrument?.axisUnit });
-	if (instrument) {
-		const other = parsed.spectra.find((s) => s.technique && s.technique !== instrument.technique);
-		if (other) {
+	let parsed: ParsedFile | null = null;
+	let refused: Refusal | null = null;
+	try {
+		parsed = parseOrRefuse(input.bytes, fileName, { allowGaps: input.allowGaps, minPoints: input.minPoints, unit: instrument?.axisUnit });
+		const other = instrument ? parsed.spectra.find((s) => s.technique && s.technique !== instrument.technique) : undefined;
+		if (instrument && other) {
 			throw new IntakeError(
 				400,
 				'wrong-technique',
@@ -208,58 +279,56 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 				other.line
 			);
 		}
+	} catch (e) {
+		if (!input.keepUnreadable || !(e instanceof IntakeError)) throw e;
+		if (isSpectrumErrorCode(e.code)) refused = { format: 'unparsed', reason: e.message };
+		else if (e.code === 'wrong-technique') refused = { format: 'refused', reason: `wrong technique: ${e.message}` };
+		else throw e;
 	}
 
-	const run = async (t: Transaction) => {
+	const run = async (t: Transaction): Promise<Done> => {
 		const sha256 = input.sha256 ?? sha256Hex(input.bytes);
 		const existing = await findDuplicate(t, input.context, contextId, sha256);
-		if (existing) throw duplicateError(fileName, input.context, contextId, existing);
+		if (existing) throw refused ? conflict(`${fileName}: the same file was already uploaded to this lot`, 'file') : duplicateError(fileName, input.context, contextId, existing);
 
-		const stored: StoredSpectrum[] = [];
 		// Buffer.from over the same memory: no copy of a large file; pg sends it as a binary parameter.
 		const raw = Buffer.from(input.bytes.buffer, input.bytes.byteOffset, input.bytes.byteLength);
+		const common = { sha256, fileName, instrumentId: instrument?.id ?? null, uploadedBy: actor.id, context: input.context, contextId };
+		if (refused) {
+			// Kept byte for byte as the scan's evidence, with no points; the scan's own audit event records it.
+			const unit = instrument?.axisUnit ?? input.keepUnreadable!.unit;
+			const meta = { refusedBecause: refused.reason };
+			const none = new Float64Array(0);
+			const id = await insertRow(t, { ...common, raw, format: refused.format, rowIndex: 0, axis: none, values: none, unit, yUnit: null, title: null, technique: null, acquiredAt: null, meta });
+			return { kept: { id, sha256, title: null }, parsed: null, refused };
+		}
+		const file = parsed!;
+		const stored: StoredSpectrum[] = [];
 		const empty = Buffer.alloc(0);
-		for (let rowIndex = 0; rowIndex < parsed.spectra.length; rowIndex++) {
-			const s = parsed.spectra[rowIndex];
+		for (let rowIndex = 0; rowIndex < file.spectra.length; rowIndex++) {
+			const s = file.spectra[rowIndex];
 			const acquiredAt = acquiredAtOf(s.acquiredAt);
 			const meta = { ...s.meta, ...(s.acquiredAt && !acquiredAt ? { acquiredAtText: s.acquiredAt } : {}) };
-			const [row] = await sequelize().query<{ id: string }>(
-				`INSERT INTO spectra (sha256, raw, file_name, format, row_index, points, axis, intensities, unit, y_unit, title, technique,
-				                      acquired_at, meta, instrument_id, uploaded_by, context, context_id)
-				 VALUES ($sha256, $raw, $fileName, $format, $rowIndex, $points, $axis::float8[], $values::float8[], $unit, $yUnit, $title, $technique,
-				         $acquiredAt::timestamptz, $meta::jsonb, $instrumentId::integer, $uploadedBy::integer, $context, $contextId::integer)
-				 RETURNING id`,
-				{
-					bind: {
-						sha256,
-						raw: rowIndex === 0 ? raw : empty,
-						fileName,
-						format: parsed.format,
-						rowIndex,
-						points: s.axis.length,
-						axis: float8ArrayBinary(s.axis),
-						values: float8ArrayBinary(s.values),
-						unit: s.unit,
-						yUnit: s.yUnit ?? null,
-						title: s.title ?? null,
-						technique: s.technique ?? null,
-						acquiredAt,
-						meta: JSON.stringify(meta),
-						instrumentId: instrument?.id ?? null,
-						uploadedBy: actor.id,
-						context: input.context,
-						contextId
-					},
-					type: QueryTypes.SELECT,
-					transaction: t
-				}
-			);
+			const id = await insertRow(t, {
+				...common,
+				raw: rowIndex === 0 ? raw : empty,
+				format: file.format,
+				rowIndex,
+				axis: s.axis,
+				values: s.values,
+				unit: s.unit,
+				yUnit: s.yUnit ?? null,
+				title: s.title ?? null,
+				technique: s.technique ?? null,
+				acquiredAt,
+				meta
+			});
 			stored.push({
-				id: Number(row.id),
+				id,
 				rowIndex,
 				sha256,
 				fileName,
-				format: parsed.format,
+				format: file.format,
 				points: s.axis.length,
 				axis: { from: s.axis[0], to: s.axis[s.axis.length - 1], unit: s.unit },
 				sourceId: s.id,
@@ -279,7 +348,7 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 				fileName,
 				bytes: input.bytes.byteLength,
 				sha256,
-				format: parsed.format,
+				format: file.format,
 				spectra: stored.length,
 				ids: stored.length > 20 ? [stored[0].id, stored[stored.length - 1].id] : stored.map((s) => s.id),
 				context: input.context,
@@ -287,7 +356,7 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 				instrument: instrument?.name ?? null
 			}
 		});
-		return stored;
+		return { stored, parsed: file, refused: null };
 	};
 
 	try {
@@ -319,8 +388,7 @@ export type BatchItem =
 // Kept below the pool size so a batch leaves connections for other requests.
 const BATCH_CONCURRENCY = 3;
 
-const tooLarge = (name: string, size: number) =>
-	new IntakeError(413, 'too-large', `${name}: the file is ${(size / MB).toFixed(1)} MB; the limit is ${maxFileBytes() / MB} MB`, name);
+const tooLarge = (name: string, size: number) => new IntakeError(413, 'too-large', fileTooLargeMessage(name, size), name);
 
 /** Each file in its own transaction: a refused file leaves no row, and the others are still stored. */
 export async function ingestBatch(
@@ -348,7 +416,7 @@ export async function ingestBatch(
 				contextId: options.contextId ?? null,
 				allowGaps: options.allowGaps
 			};
-			return { file: displayFileName(f.name), ok: true, spectra: await ingest(actor, input, undefined, { instrument }) };
+			return { file: displayFileName(f.name), ok: true, spectra: await ingestFile(actor, input, undefined, { instrument }) };
 		} catch (e) {
 			if (e instanceof IntakeError) return { file: displayFileName(f.name), ok: false, status: e.status, error: e.toJSON() };
 			if (e instanceof ServiceError && e.status !== 403 && e.status !== 401 && e.status !== 503) {

@@ -3,6 +3,7 @@ import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import * as instruments from '$lib/server/services/instruments';
 import * as spectra from '$lib/server/services/spectra';
+import { MB, maxBatchFiles, maxFileBytes } from '$lib/server/upload-limits';
 import type { PageServerLoad } from './$types';
 
 export const load = (async (event) => {
@@ -20,7 +21,7 @@ export const load = (async (event) => {
 		instruments: (await instruments.list())
 			.filter((i) => i.active)
 			.map((i) => ({ id: i.id, name: i.name, technique: i.technique, qualificationDue: i.qualificationDue, qualified: i.qualificationDue >= today })),
-		limits: { fileMb: spectra.maxFileBytes() / 1048576, files: spectra.maxBatchFiles() },
+		limits: { fileMb: maxFileBytes() / MB, files: maxBatchFiles() },
 		list,
 		q: q.get('q') ?? ''
 	};

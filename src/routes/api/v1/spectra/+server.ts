@@ -3,7 +3,8 @@ import { json } from '@sveltejs/kit';
 import { apiError, handler, requireActor } from '$lib/server/api';
 import { ServiceError } from '$lib/server/services/errors';
 import * as spectra from '$lib/server/services/spectra';
-import { readMultipart, tooLargeMessage } from '$lib/server/multipart';
+import { readMultipart } from '$lib/server/multipart';
+import { batchTooLargeMessage, maxBatchBytes, maxBatchFiles, maxFileBytes, streamedTooLargeMessage } from '$lib/server/upload-limits';
 import type { RequestHandler } from './$types';
 
 /** Loose uploads (the intake page), newest first: ?page, pageSize, sort (id|file|format|points|instrument|uploader|created[:asc|desc]), q. */
@@ -47,11 +48,9 @@ export const POST: RequestHandler = handler(async (event) => {
 		return apiError(415, 'not-multipart', 'Send the spectra as multipart/form-data with one or more `file` fields');
 	}
 	const length = Number(event.request.headers.get('content-length') ?? 0);
-	if (length > spectra.maxBatchBytes()) {
-		return apiError(413, 'too-large', `The upload is ${(length / 1048576).toFixed(1)} MB; one request may carry at most ${spectra.maxBatchBytes() / 1048576} MB`);
-	}
+	if (length > maxBatchBytes()) return apiError(413, 'too-large', batchTooLargeMessage(length));
 	// Streamed: per-file and file-count limits apply while the bytes arrive; each file is hashed on the way in.
-	const form = await readMultipart(event.request, { fileBytes: spectra.maxFileBytes(), files: spectra.maxBatchFiles(), oversize: 'mark' });
+	const form = await readMultipart(event.request, { fileBytes: maxFileBytes(), files: maxBatchFiles(), oversize: 'mark' });
 	const files = form.files.filter((f) => f.field === 'file');
 	if (!files.length) throw new ServiceError(400, 'no-file', 'The field "file" with one or more spectrum files is missing', 'file');
 	const instrument = form.field('instrument');
@@ -63,7 +62,7 @@ export const POST: RequestHandler = handler(async (event) => {
 			size: f.size,
 			sha256: f.sha256,
 			read: () => {
-				if (f.tooLarge) throw new spectra.IntakeError(413, 'too-large', tooLargeMessage(f.name, spectra.maxFileBytes()), f.name);
+				if (f.tooLarge) throw new spectra.IntakeError(413, 'too-large', streamedTooLargeMessage(f.name, maxFileBytes()), f.name);
 				return f.bytes;
 			}
 		})),

@@ -4,7 +4,7 @@ import { handler, requireActor } from '$lib/server/api';
 import { invalid, ServiceError } from '$lib/server/services/errors';
 import * as lots from '$lib/server/services/lots';
 import * as scans from '$lib/server/services/scans';
-import { maxFileBytes } from '$lib/server/services/spectra';
+import { maxFileBytes, maxSingleUploadBytes, uploadTooLargeMessage } from '$lib/server/upload-limits';
 import { readMultipart } from '$lib/server/multipart';
 import type { RequestHandler } from './$types';
 
@@ -28,7 +28,7 @@ export const POST: RequestHandler = handler(async (event) => {
 	const type = event.request.headers.get('content-type') ?? '';
 	if (!type.toLowerCase().startsWith('multipart/form-data')) throw new ServiceError(415, 'unsupported-media-type', 'Send multipart/form-data with the fields file and container');
 	const length = Number(event.request.headers.get('content-length') ?? 0);
-	if (length > maxFileBytes() + 64 * 1024) throw new ServiceError(413, 'too-large', `The upload is larger than ${maxFileBytes() / 1024 / 1024} MB`);
+	if (length > maxSingleUploadBytes()) throw new ServiceError(413, 'too-large', uploadTooLargeMessage());
 	// Streamed: the file limit applies while the bytes arrive, and the file is hashed on the way in.
 	const form = await readMultipart(event.request, { fileBytes: maxFileBytes(), files: 1 });
 	const file = form.files.find((f) => f.field === 'file');
