@@ -39,6 +39,8 @@ export const can = {
 	curateLibrary: ['chemometrician', 'admin'],
 	buildModels: ['chemometrician', 'admin'],
 	approveModels: ['qa'],
+	/** record the periodic review of an approved model version (issue 12 §1) */
+	reviewModels: ['chemometrician', 'qa'],
 	signDispositions: ['qa'],
 	manageSuppliers: ['procurement', 'admin'],
 	requestSupplierStatus: ['procurement'],

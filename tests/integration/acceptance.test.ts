@@ -86,5 +86,7 @@ describe('acceptance criteria per material', () => {
 		const events = await audit.list({ entity: 'material', pageSize: 200 });
 		const mine = events.rows.filter((e) => e.entityId === String(m.id)).map((e) => e.action);
 		expect(mine).toEqual(expect.arrayContaining(['acceptance.proposed', 'acceptance.approved']));
+		// the criteria page offers the decision to QA users other than the proposer (by id, never by name)
+		expect((await acceptance.list(m.code))[0]).toMatchObject({ revision: 1, state: 'approved', proposedById: qaChemist.user.id, proposedBy: qaChemist.user.name, decidedBy: qa.user.name });
 	});
 });

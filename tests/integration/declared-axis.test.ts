@@ -78,4 +78,24 @@ describe('declared axis', () => {
 		const figures = v.figures as unknown as { axis: { excluded: { entryId: number; reason: string }[] } };
 		expect(figures.axis.excluded).toEqual([{ entryId: up.entries[0].id, reason: up.outsideAxis[0].reason }]);
 	}, 120_000);
+
+	it('a recipe with two windows builds on the declared axis without the gap; a window outside the axis is refused naming it', async () => {
+		const m = await newMaterial({ unit: 'nm', from: 1100, to: 2498, step: 2 });
+		const x = gridOf(700, 1100, 2498);
+		const random = rng(13);
+		await s.library.addFiles(chemist.actor, m.id, [{ name: 'full.csv', bytes: csv(x, Array.from({ length: 24 }, (_, i) => ({ id: `w${i}`, label: 'genuine', y: spectrum('genuine', x, random) }))) }], { classColumn: 'class', roleColumn: 'role' });
+		await expect(s.versions.createBuild(chemist.actor, m.id, { recipe: 'range(1000,1800),range(1900,2498),snv,center', components: 2, familyComponents: 2 }, { inline: true })).rejects.toMatchObject({
+			status: 400,
+			message: expect.stringContaining('range(1000,1800) is outside the declared axis')
+		});
+		await expect(s.versions.createBuild(chemist.actor, m.id, { recipe: 'range(1100,1800),range(1700,2498),center', components: 2, familyComponents: 2 }, { inline: true })).rejects.toThrow(/windows range\(1100,1800\) and range\(1700,2498\) overlap/);
+		const { id } = await s.versions.createBuild(chemist.actor, m.id, { recipe: 'range(1900,2498),range(1100,1800),snv,savgol(11,2,1),center', components: 2, familyComponents: 2 }, { inline: true });
+		const v = await s.versions.get(id);
+		expect(v.state, v.error ?? '').toBe('draft');
+		const artefact = JSON.parse((await s.versions.artefactText(id)).text) as { recipe: string; axis: { x: number[]; from: number; to: number } };
+		expect(artefact.recipe).toBe('range(1900,2498),range(1100,1800),snv,savgol(11,2,1),center');
+		expect(artefact.axis).toMatchObject({ from: 1100, to: 2498 });
+		expect(artefact.axis.x.length).toBe(x.filter((p) => p <= 1800 || p >= 1900).length);
+		expect(artefact.axis.x.some((p) => p > 1800 && p < 1900)).toBe(false);
+	}, 120_000);
 });

@@ -273,6 +273,17 @@ export function restrictAxis(axis: ModelAxis, from: number, to: number): ModelAx
 	return makeAxis(axis.unit, x);
 }
 
+/** The model axis points inside any of several windows (in axis order); each window must keep at least 2 points. */
+export function restrictAxisToWindows(axis: ModelAxis, windows: { from: number; to: number }[]): ModelAxis {
+	if (windows.length === 0) return axis;
+	if (windows.length === 1) return restrictAxis(axis, windows[0].from, windows[0].to);
+	for (const w of windows) {
+		const kept = axis.x.filter((v) => v >= w.from && v <= w.to).length;
+		if (kept < 2) throw new AnalysisError('bad-range', `range(${w.from}, ${w.to}) keeps ${kept} points of the model axis ${fmt(axis.from)}–${fmt(axis.to)} ${axis.unit}`);
+	}
+	return makeAxis(axis.unit, axis.x.filter((v) => windows.some((w) => v >= w.from && v <= w.to)));
+}
+
 export function axisFromJson(a: ModelAxis): ModelAxis {
 	return makeAxis(a.unit, a.x);
 }

@@ -1,6 +1,6 @@
 import { AnalysisError } from './errors';
-import { defaultAxis, resampleOnto, restrictAxis, type AxisUnit } from './axis';
-import { fitRowSteps, formatRecipe, maxGapOf, parseRecipe, rangeOf, rowSteps, scalingMode } from './preprocess/recipe';
+import { defaultAxis, resampleOnto, restrictAxisToWindows, type AxisUnit } from './axis';
+import { fitRowSteps, formatRecipe, maxGapOf, parseRecipe, rangesOf, rowSteps, scalingMode, segmentsOf } from './preprocess/recipe';
 import { AUTOSCALE_FLOOR, fitScaling, type ScalingMode } from './preprocess/scaling';
 import { gramRows, pca, residualMoments } from './pca';
 import { subtractComponents } from './projection';
@@ -318,16 +318,18 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 	}
 	const steps = parseRecipe(recipe);
 	let axis = defaultAxis(training, options.axis);
-	const range = rangeOf(steps);
-	if (range) axis = restrictAxis(axis, range.from, range.to);
+	const windows = rangesOf(steps);
+	axis = restrictAxisToWindows(axis, windows);
 	const maxGap = maxGapOf(steps);
 	// Savitzky–Golay assumes equal spacing; on a non-uniform axis it would silently use the mean spacing (issue 12 §3).
 	// Refused at build time (stored artefacts keep loading as they were built): declare a step so the grid is uniform.
-	if (steps.some((st) => st.op === 'savgol') && axis.x.length > 2) {
-		const mean = (axis.x[axis.x.length - 1] - axis.x[0]) / (axis.x.length - 1);
+	// With several windows each window is checked on its own (the gap between two windows is not a spacing).
+	for (const [a, b] of steps.some((st) => st.op === 'savgol') ? segmentsOf(windows, axis.x) : []) {
+		if (b - a <= 2) continue;
+		const mean = (axis.x[b - 1] - axis.x[a]) / (b - a - 1);
 		let lo = Infinity;
 		let hi = -Infinity;
-		for (let i = 1; i < axis.x.length; i++) {
+		for (let i = a + 1; i < b; i++) {
 			const d = axis.x[i] - axis.x[i - 1];
 			if (d < lo) lo = d;
 			if (d > hi) hi = d;
@@ -378,7 +380,7 @@ export function buildModel(training: TrainingSpectrum[], options: BuildOptions =
 		if (!r.ok) throw new AnalysisError(r.code, `training spectrum "${ids[i]}": ${r.reason}`);
 		return r.values;
 	});
-	const rowFit = fitRowSteps(rowSteps(steps), resampled, axis.x, ids);
+	const rowFit = fitRowSteps(rowSteps(steps), resampled, axis.x, ids, windows);
 	for (let i = 0; i < rowFit.rows.length; i++) {
 		const r = rowFit.rows[i];
 		for (let j = 0; j < r.length; j++)

@@ -39,6 +39,8 @@ export interface Figures {
 	/** Every library spectrum resampled onto every k-th point of the model axis (about 150 points), for overview plots. */
 	overview: { axis: number[]; spectra: Record<string, number[]> };
 	buildMs: number;
+	/** Set by the server's build: the material's declared axis, and the training spectra left out for not covering it. */
+	axis?: { declared: { unit: string; from: number; to: number; step: number | null }; excluded: { entryId: number; reason: string }[] } | null;
 }
 
 export interface Projection {

@@ -1,6 +1,6 @@
 import { AnalysisError } from './errors';
 import { axisFromJson, resampleOnto, type ModelAxis } from './axis';
-import { maxGapOf, parseRecipe, rowPipeline, rowSteps, type RowPipeline } from './preprocess/recipe';
+import { maxGapOf, parseRecipe, rangesOf, rowPipeline, rowSteps, type RowPipeline } from './preprocess/recipe';
 import { makeProjectionModel, project, type ModelStats, type ProjectionModel } from './projection';
 import { decide, type Verdict } from './classify';
 import { validateArtefact, type ModelArtefact, type ModelJson } from './artefact';
@@ -73,7 +73,7 @@ export function prepareArtefact(artefact: ModelArtefact): PreparedArtefact {
 		artefact,
 		axis,
 		maxGap: maxGapOf(steps),
-		pipeline: rowPipeline(rowSteps(steps), artefact.preprocess.fitted, axis.x),
+		pipeline: rowPipeline(rowSteps(steps), artefact.preprocess.fitted, axis.x, rangesOf(steps)),
 		family: toProjection(artefact.family),
 		classes: artefact.classes.map((c) => toProjection(artefact.models[c])),
 		splits: prepareSplits(artefact, axis, toProjection)

@@ -1,5 +1,5 @@
 import { AnalysisError } from './errors';
-import { fitRowSteps, formatRecipe, parseRecipe, rowSteps, scalingMode, type RecipeStep } from './preprocess/recipe';
+import { fitRowSteps, formatRecipe, parseRecipe, rangesOf, rowSteps, scalingMode, type RecipeStep } from './preprocess/recipe';
 import { fitScaling, type ScalingMode } from './preprocess/scaling';
 import { fitPlsda } from './plsda';
 import { fitKnn } from './knn';
@@ -36,9 +36,15 @@ export interface SplitBuildInput {
 	onNode?: (key: string) => void;
 }
 
-function windowOf(steps: RecipeStep[], axisX: ArrayLike<number>, key: string): [number, number] {
+function windowOf(steps: RecipeStep[], axisX: ArrayLike<number>, key: string, inherited = false): [number, number] {
 	if (steps.some((s) => s.op === 'gaps')) throw new AnalysisError('bad-recipe', `node "${key}": gaps(n) belongs to the root recipe only`);
-	const r = steps.find((s) => s.op === 'range');
+	const ranges = steps.filter((s) => s.op === 'range');
+	// the version's own windows (a node inheriting the version's recipe) already made the model axis
+	if (ranges.length > 1) {
+		if (inherited) return [0, axisX.length];
+		throw new AnalysisError('bad-recipe', `node "${key}": a node recipe takes at most one range window (several windows belong to the version's recipe)`);
+	}
+	const r = ranges[0];
 	if (!r || r.op !== 'range') return [0, axisX.length];
 	let start = 0;
 	while (start < axisX.length && axisX[start] < r.from - 1e-9) start++;
@@ -91,6 +97,7 @@ export function nodesToSplit(paths: string[][], ids: string[]): { path: string[]
 /** Builds every split below level 1 from the label paths. */
 export function buildSplits(input: SplitBuildInput): SplitJson[] {
 	const { paths, resampled, axisX, ids, groups, genuine, nodes, rootRecipe, folds, fit } = input;
+	const rootWindows = rangesOf(parseRecipe(rootRecipe));
 	const todo = nodesToSplit(paths, ids);
 	const known = new Set(todo.map((t) => pathKey(t.path)));
 	for (const key of Object.keys(nodes)) {
@@ -111,11 +118,11 @@ export function buildSplits(input: SplitBuildInput): SplitJson[] {
 		if (method !== 'one-class' && t.children.length < 2) throw new AnalysisError('bad-node', `node "${key}": a discriminant split needs at least two children, found ${t.children.join(', ')}`);
 		methods.set(key, method);
 		const steps = parseRecipe(opt.recipe ?? rootRecipe);
-		const window = windowOf(steps, axisX, key);
+		const window = windowOf(steps, axisX, key, opt.recipe === undefined);
 		const x = Array.prototype.slice.call(axisX, window[0], window[1]) as number[];
 		const rows = t.members.map((i) => resampled[i].slice(window[0], window[1]));
 		const memberIds = t.members.map((i) => ids[i]);
-		const pre = fitRowSteps(rowSteps(steps), rows, x, memberIds);
+		const pre = fitRowSteps(rowSteps(steps), rows, x, memberIds, rootWindows);
 		const mode = scalingMode(steps);
 		const childOf = t.members.map((i) => paths[i][t.path.length]);
 		const kind: 'genuine' | 'suspect' = t.path[0] === genuine ? 'genuine' : 'suspect';

@@ -1,5 +1,5 @@
 import { AnalysisError } from './errors';
-import { parseRecipe, rowPipeline, rowSteps, type RowPipeline } from './preprocess/recipe';
+import { parseRecipe, rangesOf, rowPipeline, rowSteps, type RowPipeline } from './preprocess/recipe';
 import { project, type ModelStats, type ProjectionModel } from './projection';
 import { predictPlsda } from './plsda';
 import { predictKnn } from './knn';
@@ -18,11 +18,13 @@ export interface PreparedSplit {
 
 export function prepareSplits(a: ModelArtefact, axis: ModelAxis, toProjection: (m: ModelJson) => ProjectionModel): Map<string, PreparedSplit> {
 	const out = new Map<string, PreparedSplit>();
+	// the version's windows: a node's savgol never spans the gap between two of them
+	const windows = rangesOf(parseRecipe(a.recipe));
 	for (const s of splitsOf(a)) {
 		const x = Array.prototype.slice.call(axis.x, s.window[0], s.window[1]) as number[];
 		out.set(pathKey(s.path), {
 			split: s,
-			pipeline: rowPipeline(rowSteps(parseRecipe(s.recipe)), s.preprocess.fitted, x),
+			pipeline: rowPipeline(rowSteps(parseRecipe(s.recipe)), s.preprocess.fitted, x, windows),
 			models: s.method === 'one-class' ? s.children.map((c) => toProjection(s.models[c])) : [],
 			mean: s.scaling ? Float64Array.from(s.scaling.mean) : null,
 			invScale: s.scaling ? Float64Array.from(s.scaling.scale, (v) => 1 / v) : null

@@ -154,6 +154,7 @@ export function planTree(spec: TreeSpec, trainingPerLabel: Record<string, number
 			try {
 				const steps = parseRecipe(node.recipe);
 				if (steps.some((s) => s.op === 'gaps')) problems.push(`${where}: gaps(n) belongs to the version's recipe only`);
+				if (steps.filter((s) => s.op === 'range').length > 1) problems.push(`${where}: a node recipe takes at most one range window (several windows belong to the version's recipe)`);
 			} catch (e) {
 				problems.push(`${where}: recipe: ${(e as Error).message}`);
 			}

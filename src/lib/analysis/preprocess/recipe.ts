@@ -41,6 +41,10 @@ function isOp(name: string): name is RecipeStep['op'] {
 /**
  * Parses our recipe syntax: steps separated by commas, e.g. "gaps(3),snv,savgol(11,2,1),center".
  * Axis steps (range, gaps) come first, then row steps in order, then at most one column step last.
+ * Several `range` windows may be given (e.g. "range(1100,1880),range(2050,2450),snv,savgol(11,2,1),center"): the
+ * model axis keeps the points inside any window, in axis order; windows may not overlap. Every row step then sees
+ * only those points; Savitzky–Golay is computed within each window and never across the gap between two windows
+ * (docs/methods.md §3).
  * "none" (or an empty text) is the empty recipe: no preprocessing, uncentred PCA.
  */
 export function parseRecipe(text: string): RecipeStep[] {
@@ -109,10 +113,16 @@ export function validateRecipe(steps: RecipeStep[]): void {
 	for (const s of steps) {
 		const k = KIND(s);
 		if (k < last) throw new AnalysisError('bad-recipe', `recipe step "${formatStep(s)}" is out of order: axis steps (range, gaps) first, then row steps, then one column step (center or autoscale) last`);
-		if (k === 0 && seen.has(s.op)) throw new AnalysisError('bad-recipe', `recipe has "${s.op}" twice`);
+		if (k === 0 && s.op !== 'range' && seen.has(s.op)) throw new AnalysisError('bad-recipe', `recipe has "${s.op}" twice`);
 		if (k === 2 && ++columns > 1) throw new AnalysisError('bad-recipe', 'recipe has more than one column step (center, autoscale)');
 		seen.add(s.op);
 		last = k;
+	}
+	const windows = rangesOf(steps);
+	for (let i = 1; i < windows.length; i++) {
+		const a = windows[i - 1];
+		const b = windows[i];
+		if (b.from <= a.to) throw new AnalysisError('bad-recipe', `recipe windows range(${a.from},${a.to}) and range(${b.from},${b.to}) overlap: give windows that do not touch`);
 	}
 }
 
@@ -150,9 +160,39 @@ export function maxGapOf(steps: RecipeStep[]): number {
 	return g && g.op === 'gaps' ? g.maxGap : 0;
 }
 
-export function rangeOf(steps: RecipeStep[]): { from: number; to: number } | null {
-	const r = steps.find((s) => s.op === 'range');
-	return r && r.op === 'range' ? { from: r.from, to: r.to } : null;
+export interface Window {
+	from: number;
+	to: number;
+}
+
+/** The recipe's range windows, ordered by their start (empty: the whole axis). */
+export function rangesOf(steps: RecipeStep[]): Window[] {
+	return steps.flatMap((s) => (s.op === 'range' ? [{ from: s.from, to: s.to }] : [])).sort((a, b) => a.from - b.from);
+}
+
+/**
+ * The contiguous runs [start, end) of axis points that lie in the same window, in axis order. With no window or one
+ * window the whole axis is one run. A point outside every window (never on a model axis built from these windows)
+ * starts its own run, so a step never reaches across it either.
+ */
+export function segmentsOf(windows: Window[], x: ArrayLike<number>): [number, number][] {
+	const n = x.length;
+	if (windows.length <= 1 || n === 0) return [[0, n]];
+	const tol = (w: Window) => 1e-9 * Math.max(1, Math.abs(w.to - w.from));
+	const which = (v: number) => windows.findIndex((w) => v >= w.from - tol(w) && v <= w.to + tol(w));
+	const out: [number, number][] = [];
+	let start = 0;
+	let current = which(x[0]);
+	for (let i = 1; i < n; i++) {
+		const w = which(x[i]);
+		if (w !== current || w === -1) {
+			out.push([start, i]);
+			start = i;
+			current = w;
+		}
+	}
+	out.push([start, n]);
+	return out;
 }
 
 /** Row steps ready to run on one spectrum: everything that depends only on the axis is precomputed. */
@@ -162,7 +202,7 @@ export interface RowPipeline {
 
 type Stage = (x: Float64Array) => Float64Array;
 
-function stageFor(step: RowStep, fitted: FittedRowStep | undefined, axis: ArrayLike<number>): Stage {
+function stageFor(step: RowStep, fitted: FittedRowStep | undefined, axis: ArrayLike<number>, segments: [number, number][] = [[0, axis.length]]): Stage {
 	switch (step.op) {
 		case 'snv':
 			return snv;
@@ -177,14 +217,29 @@ function stageFor(step: RowStep, fitted: FittedRowStep | undefined, axis: ArrayL
 			return (x) => detrend(x, basis);
 		}
 		case 'savgol': {
-			const plan: SavgolPlan = savgolPlan(step, axis);
-			return (x) => savgol(x, plan);
+			if (segments.length <= 1) {
+				const plan: SavgolPlan = savgolPlan(step, axis);
+				return (x) => savgol(x, plan);
+			}
+			// one plan per window: the filter never spans the gap between two windows
+			const plans = segments.map(([a, b]) => {
+				const xs = Array.prototype.slice.call(axis, a, b) as number[];
+				if (xs.length < step.window)
+					throw new AnalysisError('bad-recipe', `savgol window ${step.window} is longer than the ${xs.length}-point window ${xs[0]}–${xs[xs.length - 1]} of the model axis (savgol never spans the gap between windows)`);
+				return savgolPlan(step, xs);
+			});
+			return (x) => {
+				const out = new Float64Array(x.length);
+				segments.forEach(([a, b], k) => out.set(savgol(x.subarray(a, b), plans[k]), a));
+				return out;
+			};
 		}
 	}
 }
 
-export function rowPipeline(steps: RowStep[], fitted: FittedRowStep[], axis: ArrayLike<number>): RowPipeline {
-	const stages = steps.map((s, i) => stageFor(s, fitted[i], axis));
+export function rowPipeline(steps: RowStep[], fitted: FittedRowStep[], axis: ArrayLike<number>, windows: Window[] = []): RowPipeline {
+	const segments = segmentsOf(windows, axis);
+	const stages = steps.map((s, i) => stageFor(s, fitted[i], axis, segments));
 	return {
 		apply(x) {
 			let y = x;
@@ -199,14 +254,16 @@ export function fitRowSteps(
 	steps: RowStep[],
 	rows: Float64Array[],
 	axis: ArrayLike<number>,
-	ids?: string[]
+	ids?: string[],
+	windows: Window[] = []
 ): { fitted: FittedRowStep[]; rows: Float64Array[] } {
 	const fitted: FittedRowStep[] = [];
+	const segments = segmentsOf(windows, axis);
 	let cur = rows;
 	for (const step of steps) {
 		const f: FittedRowStep = { op: step.op };
 		if (step.op === 'msc') f.reference = Array.from(mscReference(cur));
-		const stage = stageFor(step, f, axis);
+		const stage = stageFor(step, f, axis, segments);
 		cur = cur.map((r, i) => {
 			try {
 				return stage(r);

@@ -1,6 +1,7 @@
 // The lot certificate as PDF (pdfkit), set in the Source Sans 3 WOFF files shipped by @fontsource (the package ships
 // WOFF and WOFF2 only; pdfkit reads WOFF), never system fonts. Pure function of its content: the same content always gives the same bytes, because
 // every date in the file (CreationDate, ModDate, and the /ID pdfkit derives from them) comes from the content.
+import { REVIEW_OVERDUE_NOTE } from '../../model-review';
 import { containerLabel } from '../../labels';
 import canonicalize from 'canonicalize';
 import PDFDocument from 'pdfkit';
@@ -35,6 +36,8 @@ export interface CertificateContainer {
 	/** Every scan of the container by file name and the first 12 hex digits of its SHA-256 (absent on older certificates). */
 	scans?: CertificateScan[];
 	replicates?: { done: number; required: number };
+	/** The model version that screened it was past its review-by date (issue 12 §1). */
+	modelReviewOverdue?: boolean;
 }
 
 export interface CertificateScan {
@@ -269,7 +272,8 @@ export async function renderCertificate(content: CertificateContent): Promise<Bu
 			pair(c.genuine?.c, c.genuine?.cCrit)
 		];
 		doc.font('body').fontSize(8.5);
-		const reason = c.verdict !== 'genuine' && c.reason ? latin(c.reason) : null;
+		const reasonParts = [c.modelReviewOverdue ? `${REVIEW_OVERDUE_NOTE}: the model version was past its review-by date when it screened this container` : null, c.verdict !== 'genuine' && c.reason ? c.reason : null].filter((x): x is string => !!x);
+		const reason = reasonParts.length ? latin(reasonParts.join('. ')) : null;
 		const reasonHeight = reason ? doc.fontSize(7.5).heightOfString(reason, { width: width - 60 }) + 2 : 0;
 		const scanText = c.scans?.length ? latin(`${c.replicates && c.replicates.required > 1 ? `Replicates ${c.replicates.done} of ${c.replicates.required}. ` : ''}Scans: ${c.scans.map(scanLine).join('; ')}`) : null;
 		const scanHeight = scanText ? doc.fontSize(7.5).heightOfString(scanText, { width: width - 60 }) + 2 : 0;

@@ -51,6 +51,7 @@ const toPublic = (r: CriteriaRow) => ({
 	reason: r.reason,
 	state: r.state,
 	proposedBy: r.proposer,
+	proposedById: Number(r.proposed_by),
 	proposedAt: new Date(r.proposed_at).toISOString(),
 	decidedBy: r.decider,
 	decidedAt: r.decided_at ? new Date(r.decided_at).toISOString() : null

@@ -16,6 +16,7 @@ import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
 import * as lots from './lots';
 import { recomputeStatus } from './scans';
 import * as signatures from './signatures';
+import { noteInvalidation } from './model-reviews';
 
 export { CAUSE_LABELS, INVALIDATION_CAUSES };
 export type { InvalidationCause, InvalidationView };
@@ -200,6 +201,8 @@ export async function decide(actor: Actor, lotRef: number | string, scanRef: num
 				});
 			}
 		}
+		// issue 12 §1: 3 or more invalidated scans of the material within 30 days trigger revalidation of its version
+		if (decision === 'approve') await noteInvalidation(tx, actor, lot.material_id);
 		const status = await recomputeStatus(tx, lotId, actor);
 		return { invalidation: (await byId(proposal.id, tx))!, manifestation, status };
 	});

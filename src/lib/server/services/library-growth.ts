@@ -19,7 +19,7 @@ import { conflict, forbidden, invalid, ServiceError } from './errors';
 import * as materials from './materials';
 import { insertVersion, start } from './model-versions/build';
 import { memberships, row } from './model-versions/read';
-import { recordRevalidation } from './transfers';
+import { recordRevalidation } from './model-reviews';
 
 interface CandidateScan {
 	scan_id: number;

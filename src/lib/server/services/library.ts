@@ -10,6 +10,7 @@ import * as audit from './audit';
 import { forbidden, invalid, notFound } from './errors';
 import * as materials from './materials';
 import * as intake from './spectra';
+import { noteLibraryChange } from './model-reviews';
 import { displayFileName } from '../../validation/text';
 
 // `transfer`: genuine spectra measured on an instrument a version was not built on (issue 14 §3); they never train
@@ -173,6 +174,8 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 			after: { files: files.map((f) => f.name), added: added.length, byRoleAndLabel: summary, ...(outsideAxis.length ? { outsideAxis } : {}) },
 			reason: `library upload of ${added.length} spectra`
 		});
+		// issue 12 §1: a change of the library is a revalidation trigger on the approved version
+		if (added.length) await noteLibraryChange(tx, actor, material.id, `${added.length} spectra added to the library (${files.map((f) => f.name).join(', ')})`);
 		return { materialId: material.id, added: added.length, entries: added, byRoleAndLabel: summary, axis, outsideAxis };
 	});
 }

@@ -4,6 +4,7 @@ import * as alerts from './alerts';
 import * as dispositions from './dispositions';
 import * as drift from './drift';
 import * as lots from './lots';
+import * as modelReviews from './model-reviews';
 import * as modelVersions from './model-versions';
 import * as supplierStatus from './supplier-status';
 
@@ -23,7 +24,13 @@ export interface Queue {
 	action?: { href: string; label: string };
 }
 
-type QueueDefinition = Omit<Queue, 'items'> & { items?: (actor: Actor) => Promise<QueueItem[]> };
+type QueueDefinition = Omit<Queue, 'items'> & { items?: (actor: Actor) => Promise<QueueItem[]>; /** shown only when the queue of this key is not already shown (one list for a user with both roles) */ sameAs?: string };
+
+// issue 12 §1: the periodic reviews, on the chemometrician's and on QA's home page (overdue, and due within 30 days).
+const reviewQueues = (role: 'chemometrician' | 'qa', suffix: string): QueueDefinition[] => [
+	{ key: `reviews-overdue${suffix}`, role, title: 'Model reviews overdue', empty: 'No approved model version is past its review-by date.', items: () => modelReviews.queueItems('overdue'), ...(suffix ? { sameAs: 'reviews-overdue' } : {}) },
+	{ key: `reviews-due-soon${suffix}`, role, title: 'Model reviews due soon', empty: 'No model review is due within 30 days.', items: () => modelReviews.queueItems('dueSoon'), ...(suffix ? { sameAs: 'reviews-due-soon' } : {}) }
+];
 
 /** Lots for a home queue: awaiting scans (technicians) or screened and awaiting disposition (QA). */
 async function lotItems(status: 'awaiting-scans' | 'screened', skip: Set<string> = new Set()): Promise<QueueItem[]> {
@@ -42,6 +49,7 @@ async function lotItems(status: 'awaiting-scans' | 'screened', skip: Set<string>
 const QUEUES: QueueDefinition[] = [
 	{ key: 'awaiting-scans', role: 'technician', title: 'Lots awaiting scans', empty: 'No lot is waiting for scans.', action: { href: '/lots/new', label: 'Receive a lot' }, items: () => lotItems('awaiting-scans') },
 	{ key: 'model-drafts', role: 'chemometrician', title: 'Model drafts', empty: 'No draft model version is open.', action: { href: '/materials', label: 'Go to materials' }, items: (actor) => modelVersions.queueItems('chemometrician', actor) },
+	...reviewQueues('chemometrician', ''),
 	{ key: 'drift-signals', role: 'chemometrician', title: 'Supplier drift signals', empty: 'No supplier is drifting.', action: { href: '/suppliers', label: 'Suppliers' }, items: () => drift.queueItems() },
 	{ key: 'qa-review', role: 'qa', title: 'Waiting for QA', empty: 'No lot or model version waits for a QA decision.', items: async (actor) => {
 			// A lot whose release waits for a second signature shows once, as that, not also as "awaiting disposition".
@@ -54,6 +62,7 @@ const QUEUES: QueueDefinition[] = [
 				['model-version', await modelVersions.queueItems('qa', actor)]
 			]);
 		} },
+	...reviewQueues('qa', '-qa'),
 	{ key: 'supplier-alerts', role: 'procurement', title: 'Open supplier alerts', empty: 'No supplier alert is open.', action: { href: '/alerts', label: 'All alerts' }, items: () => alerts.queueItems() },
 	{ key: 'admin', role: 'admin', title: 'Administration', empty: 'Users, instruments and their tokens.', action: { href: '/admin', label: 'Open admin' } },
 	{ key: 'audit-trail', role: 'auditor', title: 'Audit trail', empty: 'Every recorded change, with who, when and why; read it or export it as CSV.', action: { href: '/audit', label: 'Open the audit trail' } }
@@ -75,6 +84,8 @@ export function unique(sources: [string, QueueItem[]][]): QueueItem[] {
 }
 
 export async function queuesFor(actor: Actor): Promise<Queue[]> {
-	const mine = QUEUES.filter((q) => actor.roles.includes(q.role));
-	return Promise.all(mine.map(async ({ items, ...queue }) => ({ ...queue, items: items ? unique([[queue.key, await items(actor)]]) : [] })));
+	const held = QUEUES.filter((q) => actor.roles.includes(q.role));
+	const shown = new Set(held.map((q) => q.key));
+	const mine = held.filter((q) => !q.sameAs || !shown.has(q.sameAs));
+	return Promise.all(mine.map(async ({ items, sameAs: _sameAs, ...queue }) => ({ ...queue, items: items ? unique([[queue.key, await items(actor)]]) : [] })));
 }

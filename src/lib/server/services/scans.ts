@@ -222,6 +222,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 				ambiguous: result?.ambiguous ?? false,
 				reason,
 				modelVersion: result ? model!.label : null,
+				...(scan.modelReviewOverdue ? { modelReviewOverdue: true } : {}),
 				artefactSha256: result ? model!.sha256 : null,
 				instrument: instrument?.name ?? null,
 				...(origin.duplicateOverride ? { duplicateOverride: origin.duplicateOverride } : {}),
@@ -231,7 +232,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		// A non-genuine verdict opens (or raises) the supplier alert in this same transaction.
 		await alerts.openForScan(tx, actor, { id: scan.id, lotId, container, verdict, profile: result?.profile ?? null, reason });
 		await drift.evaluateLot(tx, actor, lotId);
-		return { scanId: scan.id, verdict, profile: result?.profile ?? null, ambiguous: result?.ambiguous ?? false, reason, instrumentStated: instrument != null, modelVersion: result ? { id: model!.versionId, label: model!.label } : null, spectrumId: stored.id, sha256: stored.sha256, title: stored.title, status };
+		return { scanId: scan.id, verdict, profile: result?.profile ?? null, ambiguous: result?.ambiguous ?? false, reason, instrumentStated: instrument != null, modelVersion: result ? { id: model!.versionId, label: model!.label } : null, modelReviewOverdue: scan.modelReviewOverdue, spectrumId: stored.id, sha256: stored.sha256, title: stored.title, status };
 	});
 	return { ...outcome, lotId, container, fileName: file.fileName };
 }
@@ -254,16 +255,18 @@ interface ScanInsert {
 const jsonText = (value: unknown) => JSON.stringify(value, (_k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : ArrayBuffer.isView(v) ? Array.from(v as unknown as ArrayLike<number>) : v));
 
 async function insertScan(tx: Transaction, actor: Actor, s: ScanInsert) {
-	const [row] = await sequelize().query<{ id: number }>(
-		`INSERT INTO scans (lot_id, container, spectrum_id, model_version_id, verdict, profile, ambiguous, reason, result, instrument_id, created_by, rescreen_of)
-		 VALUES (:lotId, :container, :spectrumId, :modelVersionId, :verdict, :profile, :ambiguous, :reason, :result, :instrumentId, :createdBy, :rescreenOf) RETURNING id`,
+	const [row] = await sequelize().query<{ id: number; model_review_overdue: boolean }>(
+		// issue 12 §1: a verdict from a version past its review-by date (UTC) keeps "model review overdue" for good
+		`INSERT INTO scans (lot_id, container, spectrum_id, model_version_id, verdict, profile, ambiguous, reason, result, instrument_id, created_by, rescreen_of, model_review_overdue)
+		 VALUES (:lotId, :container, :spectrumId, :modelVersionId, :verdict, :profile, :ambiguous, :reason, :result, :instrumentId, :createdBy, :rescreenOf,
+		         coalesce((SELECT review_by < (now() AT TIME ZONE 'UTC')::date FROM model_versions WHERE id = CAST(:modelVersionId AS integer)), false)) RETURNING id, model_review_overdue`,
 		{
 			replacements: { ...s, result: s.result ? jsonText(s.result) : null, createdBy: actor.id },
 			type: QueryTypes.SELECT,
 			transaction: tx
 		}
 	);
-	return { id: Number(row.id) };
+	return { id: Number(row.id), modelReviewOverdue: row.model_review_overdue === true };
 }
 
 /**

@@ -17,6 +17,7 @@ import * as audit from './audit';
 import { conflict, forbidden, invalid, notFound, ServiceError } from './errors';
 import * as library from './library';
 import * as signatures from './signatures';
+import { recordRevalidation } from './model-reviews';
 
 export const TRANSFER_MEANING = 'transfer approved for screening';
 export const TRANSFER_REFUSAL_MEANING = 'transfer refused';
@@ -241,14 +242,6 @@ export async function decide(actor: Actor, transferId: number, approveIt: boolea
 			reason: data.reason
 		});
 		return { id: Number(t.id), state, manifestation };
-	});
-}
-
-/** Appends a revalidation trigger to a version (issue 12 §1: a new instrument screening the material, a library change). */
-export async function recordRevalidation(tx: Transaction, versionId: number, kind: string, detail: string) {
-	await sequelize().query(`UPDATE model_versions SET revalidation = revalidation || jsonb_build_array(jsonb_build_object('kind', :kind::text, 'at', :at::text, 'detail', :detail::text)) WHERE id = :id`, {
-		replacements: { id: versionId, kind, at: new Date().toISOString(), detail },
-		transaction: tx
 	});
 }
 

@@ -16,6 +16,7 @@ import instrumentChecks from './081-instrument-checks';
 import modelTransfer from './150-model-transfer';
 import declaredAxis from './120-declared-axis';
 import libraryGrowth from './151-library-growth';
+import modelReviews from './160-model-reviews';
 
 export interface Migration {
 	name: string;
@@ -24,4 +25,4 @@ export interface Migration {
 }
 
 // Append new migrations at the end; never edit one that has shipped.
-export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer, declaredAxis, libraryGrowth];
+export const migrations: Migration[] = [foundation, methodDevelopment, lots, modelRebuilds, lotsExtra, disposition, auditAnchor, sessionsAndDuties, resultIntegrity, qualityGates, acceptanceCriteria, auditorRole, supplierDrift, instrumentChecks, modelTransfer, declaredAxis, libraryGrowth, modelReviews];

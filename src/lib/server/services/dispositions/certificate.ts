@@ -58,8 +58,9 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 				path: string[] | null;
 				levels: LevelEvidence[] | null;
 				identification: Identification | null;
+				model_review_overdue: boolean;
 			}>(
-				"SELECT id, result->'family' AS family, result->'classes' AS classes, reason, verdict, result->'path' AS path, result->'levels' AS levels, result->'identification' AS identification FROM scans WHERE id IN (:ids)",
+				"SELECT id, model_review_overdue, result->'family' AS family, result->'classes' AS classes, reason, verdict, result->'path' AS path, result->'levels' AS levels, result->'identification' AS identification FROM scans WHERE id IN (:ids)",
 				{ replacements: { ids: scanIds }, type: QueryTypes.SELECT, transaction: tx }
 			)
 		: [];
@@ -112,6 +113,8 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 			sha256: s.sha256,
 			family: stats(r?.family),
 			genuine: genuineName ? stats(r?.classes?.[genuineName]) : null,
+			// issue 12 §1: the version that screened it was past its review-by date (absent on older certificates)
+			...(r?.model_review_overdue ? { modelReviewOverdue: true } : {}),
 			...(s.history
 				? {
 						replicates: s.replicates,

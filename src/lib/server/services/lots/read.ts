@@ -42,7 +42,7 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 		{ replacements: { m: lot.material_id, s: lot.supplier_id, createdBy: lot.created_by ?? 0 }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	const scanRows = await sequelize().query<Record<string, unknown>>(
-		`SELECT sc.id, sc.container, sc.verdict, sc.profile, sc.ambiguous, sc.reason, sc.created_at, sc.rescreen_of, sc.spectrum_id,
+		`SELECT sc.id, sc.container, sc.verdict, sc.profile, sc.ambiguous, sc.reason, sc.created_at, sc.rescreen_of, sc.spectrum_id, sc.model_review_overdue,
 		        sc.result->'family' AS family, sc.result->'classes' AS classes,
 		        sc.result->'path' AS path, sc.result->'levels' AS levels, sc.result->'identification' AS identification,
 		        sc.model_version_id, mv.version AS model_version, sp.file_name, sp.title, sp.sha256, sp.format,
@@ -85,6 +85,7 @@ export async function get(idOrInternal: number | string, tx?: Transaction) {
 			levels: ((r.levels as LevelEvidence[] | null) ?? []).map(levelView),
 			identification: r.identification ? { ...(r.identification as Identification), text: identificationText(r.identification as Identification, materialCode) } : null,
 			modelVersion: r.model_version_id ? { id: Number(r.model_version_id), label: `${materialCode} v${r.model_version}` } : null,
+			modelReviewOverdue: r.model_review_overdue === true,
 			spectrumId: Number(r.spectrum_id),
 			fileName: displayFileName(r.file_name as string),
 			title: (r.title as string | null) ?? null,

@@ -66,6 +66,8 @@ export interface ScanView {
 	/** For a not-this-material scan: the other materials it resembles (evidence only). */
 	identification: (Identification & { text: string | null }) | null;
 	modelVersion: { id: number; label: string } | null;
+	/** The version that screened this scan was past its review-by date then (issue 12 §1: "model review overdue"). */
+	modelReviewOverdue: boolean;
 	spectrumId: number;
 	fileName: string;
 	title: string | null;

@@ -124,9 +124,10 @@ export async function checkTrainingSet(material: { id: number; code: string }, p
 	if (!(hi > lo)) {
 		throw invalid(`Cannot build ${material.code}: the training spectra have no common axis range (entry ${loId} starts at ${lo.toFixed(1)} ${target}, entry ${hiId} ends at ${hi.toFixed(1)} ${target})`, 'training');
 	}
-	const range = parseRecipe(params.recipe).find((s) => s.op === 'range');
-	if (range && range.op === 'range' && (range.from < lo - 1e-9 || range.to > hi + 1e-9)) {
-		throw invalid(`The recipe's range(${range.from},${range.to}) is outside the range every training spectrum covers (${lo.toFixed(1)}–${hi.toFixed(1)} ${target})`, 'recipe');
+	for (const range of parseRecipe(params.recipe)) {
+		if (range.op === 'range' && (range.from < lo - 1e-9 || range.to > hi + 1e-9)) {
+			throw invalid(`The recipe's range(${range.from},${range.to}) is outside the range every training spectrum covers (${lo.toFixed(1)}–${hi.toFixed(1)} ${target})`, 'recipe');
+		}
 	}
 }
 

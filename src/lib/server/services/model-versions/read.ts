@@ -1,4 +1,5 @@
 // Model versions: reading a version, its list, its artefact text, the approved version and its training membership.
+import { reviewStatus } from '../../../model-review';
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
 import { serializeArtefact, type ModelArtefact } from '../../../analysis';
@@ -52,6 +53,14 @@ function publicFigures(f: Figures | null) {
 	return rest;
 }
 
+// A date column read as text (YYYY-MM-DD) or as a Date at local midnight, written as the calendar date it holds.
+function reviewByOf(r: VersionRow): string | null {
+	const d = r.review_by;
+	if (d == null) return null;
+	if (typeof d === 'string') return d.slice(0, 10);
+	return new Date(d.getTime() - d.getTimezoneOffset() * 60_000).toISOString().slice(0, 10);
+}
+
 export async function toPublic(r: VersionRow, names?: Map<number, string>) {
 	const who = names ?? (await userNames([r.built_by, r.approved_by]));
 	const material = await materials.get(r.material_id);
@@ -80,7 +89,9 @@ export async function toPublic(r: VersionRow, names?: Map<number, string>) {
 		validation: r.validation,
 		pending: r.pending,
 		changeNote: r.change_note,
-		reviewBy: r.review_by ? new Date(r.review_by).toISOString().slice(0, 10) : null,
+		reviewBy: reviewByOf(r),
+		// issue 12 §1: overdue, due soon or in time (UTC today); only the approved version is reviewed
+		review: reviewStatus(r.state === 'approved' ? reviewByOf(r) : null),
 		revalidation: r.revalidation ?? [],
 		// stored at approval; for a draft, evaluated now against the material's current criteria
 		acceptance: (r.acceptance ?? (r.state === 'draft' && r.validation ? await acceptance.evaluateVersion(r.id).catch(() => null) : null)) as acceptance.VersionAcceptance | null

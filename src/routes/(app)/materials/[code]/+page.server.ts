@@ -70,6 +70,20 @@ export const actions = {
 			throw error;
 		}
 	},
+	setAxis: async (event) => {
+		const actor = requireUser(event, can.manageMaterials);
+		const material = await materials.get(event.params.code);
+		const data = await event.request.formData();
+		const values = Object.fromEntries(['unit', 'from', 'to', 'step', 'reason'].map((k) => [k, String(data.get(k) ?? '').trim()]));
+		try {
+			const updated = await materials.setAxis(actor, material.id, { unit: values.unit as 'nm', from: values.from, to: values.to, step: values.step === '' ? null : values.step } as unknown as materials.AxisInput, values.reason);
+			return { axisSet: materials.axisText(updated.axis!) };
+		} catch (error) {
+			if (error instanceof ServiceError) return fail(error.status === 403 ? 403 : 400, { axisError: { message: error.message, field: error.field ?? null, values } });
+			if (error instanceof ZodError) return fail(400, { axisError: { message: error.issues[0]?.message ?? 'Invalid input', field: String(error.issues[0]?.path[0] ?? '') || null, values } });
+			throw error;
+		}
+	},
 	requireInstrument: async (event) => {
 		const actor = requireUser(event, can.manageMaterials);
 		const material = await materials.get(event.params.code);

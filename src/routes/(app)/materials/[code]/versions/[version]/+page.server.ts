@@ -9,6 +9,8 @@ import { requireUser } from '$lib/server/guard';
 import { hasRole } from '$lib/server/services/actor';
 import * as versions from '$lib/server/services/model-versions';
 import * as transfers from '$lib/server/services/transfers';
+import * as modelReviews from '$lib/server/services/model-reviews';
+import { ServiceError } from '$lib/server/services/errors';
 import { refuse } from '../../../service-errors.server';
 import { versionIdFor } from './version.server';
 import { versionView } from './view.server';
@@ -40,6 +42,10 @@ export const load = (async (event) => {
 		...view,
 		// issue 14 §3: the instruments this version screens (home and approved transfers), and training spectra without one
 		instruments: { approvedFor: instruments.approvedFor, unstated: instruments.home.unstated, pending: instruments.transfers.filter((t) => t.state === 'proposed').length },
+		reviews: await modelReviews.forVersion(id),
+		canReview: hasRole(actor, can.reviewModels) && view.version.state === 'approved',
+		reviewMeaning: modelReviews.REVIEW_MEANING,
+		outcomes: modelReviews.REVIEW_OUTCOMES.map((o) => ({ value: o, label: modelReviews.OUTCOME_LABELS[o] })),
 		canEdit: hasRole(actor, can.buildModels),
 		canApprove: hasRole(actor, can.approveModels) && view.version.builtBy.id !== actor.id,
 		isBuilder: view.version.builtBy.id === actor.id,
@@ -77,6 +83,23 @@ export const actions = {
 		const actor = requireUser(event, can.buildModels);
 		await versions.clearPending(actor, await versionIdFor(event.params));
 		return { cleared: true };
+	},
+	review: async (event) => {
+		const actor = requireUser(event, can.reviewModels);
+		const data = await event.request.formData();
+		const field = (name: string) => String(data.get(name) ?? '');
+		try {
+			const done = await modelReviews.record(actor, await versionIdFor(event.params), {
+				outcome: field('outcome') as modelReviews.ReviewOutcome,
+				reason: field('reason'),
+				password: field('password'),
+				meaning: field('meaning')
+			});
+			return { reviewDone: { outcome: done.outcome, reviewBy: done.reviewByAfter } };
+		} catch (error) {
+			if (error instanceof ServiceError) return fail(error.status === 403 ? 403 : 400, { reviewError: { message: error.message, field: error.field ?? null, outcome: field('outcome'), reason: field('reason') } });
+			throw error;
+		}
 	},
 	rebuild: async (event) => {
 		const actor = requireUser(event, can.buildModels);
