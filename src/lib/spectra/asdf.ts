@@ -1,5 +1,5 @@
-// Our own reading of (X++(Y..Y)) lines, used only to check what jcampconverter does not:
-// the DIF check value, the X at the start of each line, NPOINTS, and characters it skips silently.
+// Our reading of (X++(Y..Y)) lines, the only decoder of JCAMP-DX ordinates: it also checks what a general-purpose
+// converter does not (the DIF check value, the X at the start of each line, NPOINTS, characters skipped silently).
 // Rules: McDonald & Wilks 1988, §5 (AFFN, PAC, SQZ, DIF, DUP; the Y check value in DIF form).
 import { SpectrumFileError } from './errors';
 

@@ -1,7 +1,7 @@
-// JCAMP-DX 4.24 / 5.x single-spectrum files. jcampconverter decodes the ordinates; the strict
-// checks it lacks (structure, required labels, units, NPOINTS, line X values, the DIF check value)
-// are ours. Rules: McDonald & Wilks 1988 (Appl. Spectrosc. 42:151–162), listed in docs/methods.md §14.
-import { convert } from 'jcampconverter';
+// JCAMP-DX 4.24 / 5.x single-spectrum files, decoded once, by our own strict reader: structure, required labels,
+// units, NPOINTS, the X at the start of each line and the DIF check value are all checked (a general-purpose
+// converter checks none of them). Rules: McDonald & Wilks 1988 (Appl. Spectrosc. 42:151–162), docs/methods.md §14.
+// jcampconverter is kept as a test oracle only (tests/unit/spectra/jcamp-oracle.test.ts): values and metadata agree.
 import { decodeXYData } from './asdf';
 import { SpectrumFileError } from './errors';
 import type { AxisUnit, ParsedFile, ParsedSpectrum, Technique } from './types';
@@ -11,7 +11,11 @@ interface Ldr {
 	/** Canonical label: upper case without blanks, "-", "/", "_" (the standard's comparison rule). */
 	key: string;
 	raw: string;
+	/** The label exactly as written between "##" and "=". */
+	label: string;
 	value: string;
+	/** Everything after "=", continuation lines included (line ends as in the file), comments kept, trimmed. */
+	text: string;
 	line: number;
 	/** Text lines after the label line, up to the next label (the data of a table). */
 	body: { text: string; line: number }[];
@@ -21,19 +25,65 @@ const canon = (label: string) => label.replace(/[\s\-/_]/g, '').toUpperCase();
 
 function scanLabels(text: string): { ldrs: Ldr[]; lineCount: number } {
 	const lines = text.split(/\r\n|\r|\n/);
+	const eol = text.includes('\r\n') ? '\r\n' : '\n';
 	const ldrs: Ldr[] = [];
 	let cur: Ldr | null = null;
+	const rest: string[] = [];
+	const close = () => {
+		if (cur) cur.text = [cur.text, ...rest].join(eol).trim();
+		rest.length = 0;
+	};
 	for (let i = 0; i < lines.length; i++) {
 		const s = lines[i];
 		if (s.startsWith('##')) {
+			close();
 			const eq = s.indexOf('=');
-			const raw = eq < 0 ? s.slice(2) : s.slice(2, eq);
-			cur = { key: canon(raw), raw: raw.trim(), value: eq < 0 ? '' : stripComment(s.slice(eq + 1)).trim(), line: i + 1, body: [] };
+			const label = eq < 0 ? s.slice(2) : s.slice(2, eq);
+			const after = eq < 0 ? '' : s.slice(eq + 1);
+			cur = { key: canon(label), raw: label.trim(), label, value: stripComment(after).trim(), text: after, line: i + 1, body: [] };
 			ldrs.push(cur);
-		} else if (cur) cur.body.push({ text: s, line: i + 1 });
+		} else if (cur) {
+			cur.body.push({ text: s, line: i + 1 });
+			rest.push(s);
+		}
 	}
+	close();
 	// A final line break does not start another line.
 	return { ldrs, lineCount: lines.length > 1 && lines.at(-1) === '' ? lines.length - 1 : lines.length };
+}
+
+/**
+ * The private labels (##$NAME=) of the block as metadata, NAME → value with comments removed; a label given twice
+ * joins its values with "; ". A value written as a list "{a b c}" or as "(1..3)" with values on the next lines
+ * also gives NAME1…: the same reading as jcampconverter's, which tests hold it to.
+ */
+function privateLabels(ldrs: Ldr[]): Record<string, string> {
+	const grouped = new Map<string, string[]>();
+	for (const l of ldrs) {
+		if (!l.label.startsWith('$')) continue;
+		const name = l.label.slice(1);
+		grouped.set(name, [...(grouped.get(name) ?? []), l.text]);
+	}
+	const meta: Record<string, string> = {};
+	const put = (name: string, value: string | undefined) => {
+		if (value !== undefined) meta[name.trim()] = stripComment(value).trim();
+	};
+	for (const [name, values] of grouped) put(name, values.join('; '));
+	for (const [name, values] of grouped) {
+		if (values.length !== 1) continue;
+		const v = values[0];
+		if (v.startsWith('{')) {
+			if (!v.includes(':') && v.endsWith('}')) v.slice(1, -1).split(/[,; ]+/).filter(Boolean).forEach((item, k) => put(name + String(k), item));
+		} else if (v.startsWith('(')) {
+			const rows = v.split(/\r?\n/);
+			const range = /^\((\d+)\.\.(\d+)\).*$/.exec(rows[0]);
+			if (range) {
+				const items = rows.slice(1).join(' ').split(/[,; ]+/).filter(Boolean);
+				for (let u = Number(range[1]); u <= Number(range[2]); u++) put(name + String(u), items[u - Number(range[1])]);
+			}
+		}
+	}
+	return meta;
 }
 
 function stripComment(s: string): string {
@@ -158,7 +208,7 @@ export function parseJcamp(text: string, file: string, options: { allowGaps?: bo
 	const firstYL = ldrs.find((x) => x.key === 'FIRSTY' && before(x));
 	const firstY = firstYL ? labelNumber(firstYL, file) : undefined;
 
-	// Our decoding of the table, for the checks (jcampconverter does not verify any of these).
+	// The one decoding of the table, checked as it goes (check values, repeat counts) and against the labels below.
 	const body = table.body.filter((b) => b.line < end.line);
 	const dec = decodeXYData(body, file, npoints);
 	if (dec.y.length !== npoints) {
@@ -179,41 +229,20 @@ export function parseJcamp(text: string, file: string, options: { allowGaps?: bo
 	if (firstY !== undefined && Number.isFinite(dec.y[0]) && Math.abs(dec.y[0] * yFactor - firstY) > Math.abs(yFactor) + 1e-6 * Math.abs(firstY))
 		throw new SpectrumFileError('firsty-mismatch', file, `the first Y value is ${dec.y[0] * yFactor} but ##FIRSTY= says ${firstY}`, firstYL!.line);
 
-	// jcampconverter's decoding, cross-checked value by value against ours ("?" it skips: a gap).
-	let entry;
-	try {
-		entry = convert(text, { keepRecordsRegExp: /.*/, dynamicTyping: false }).flatten[0];
-	} catch (e) {
-		throw new SpectrumFileError('bad-number', file, `the JCAMP-DX reader could not decode the file (${e instanceof Error ? e.message : String(e)})`);
-	}
-	const jy = entry?.spectra?.[0]?.data?.y;
-	if (!entry || !Array.isArray(jy)) throw new SpectrumFileError('bad-number', file, 'the JCAMP-DX reader found no data in ##XYDATA=', table.line);
 	const values = new Float64Array(npoints);
-	let j = 0;
-	for (let i = 0; i < npoints; i++) {
-		if (Number.isNaN(dec.y[i])) {
-			values[i] = Number.NaN;
-			continue;
-		}
-		const ours = dec.y[i] * yFactor;
-		const theirs = jy[j++];
-		if (typeof theirs !== 'number' || !(Math.abs(ours - theirs) <= 1e-9 * Math.max(Math.abs(ours), Math.abs(theirs)) + 1e-12 * Math.abs(yFactor)))
-			throw new SpectrumFileError('bad-number', file, `value ${i + 1} cannot be decoded unambiguously (${ours} or ${theirs}); the data table mixes encodings in a way this reader does not accept`, dec.lineOf[i]);
-		values[i] = theirs;
-	}
-	if (j !== jy.length) throw new SpectrumFileError('bad-number', file, `the data table decodes to ${jy.length} values by one reading and ${j} by another; it is malformed`, table.line);
+	for (let i = 0; i < npoints; i++) values[i] = dec.y[i] * yFactor; // "?" stays NaN: a gap
 
 	// The axis from FIRSTX and the step, without accumulating rounding along 2,000 points.
 	const axis = new Float64Array(npoints);
 	for (let i = 0; i < npoints; i++) axis[i] = i === npoints - 1 ? lastX : firstX + i * dx;
 	const missing = checkSpectrum(axis, values, { file, allowGaps, minPoints, lineOf: (i) => dec.lineOf[i] });
-	const info = entry.info as Record<string, unknown>;
-	const str = (v: unknown): string | undefined => (Array.isArray(v) ? v.map(String).join('; ') : v === undefined || v === null ? undefined : String(v));
-	const meta: Record<string, string> = {};
-	for (const [k, v] of Object.entries(entry.meta)) {
-		const s = str(v);
-		if (s !== undefined) meta[k.trim()] = stripComment(s).trim();
-	}
+	const block = ldrs.filter(before);
+	const meta = privateLabels(block);
+	// A standard label's text as written (comments included), repeated ones joined with "; ".
+	const info = (key: string) => {
+		const found = block.filter((l) => !l.label.startsWith('$') && l.label.replace(/[_ -]/g, '').toUpperCase() === key);
+		return found.length ? found.map((l) => l.text).join('; ') : undefined;
+	};
 	const title = stripComment(first('TITLE')!.value).trim();
 	const yUnit = ldrs.find((x) => x.key === 'YUNITS' && before(x))?.value || null;
 	const spectrum: ParsedSpectrum = {
@@ -224,7 +253,7 @@ export function parseJcamp(text: string, file: string, options: { allowGaps?: bo
 		yUnit,
 		title: title === '' ? null : title,
 		meta,
-		acquiredAt: acquisitionTime(str(info.LONGDATE), str(info.DATE), str(info.TIME)),
+		acquiredAt: acquisitionTime(info('LONGDATE'), info('DATE'), info('TIME')),
 		technique: techniqueOf(dataType?.value, firstX, lastX, unit),
 		missing,
 		line: table.line
