@@ -1,5 +1,12 @@
-import Papa from 'papaparse';
+// The command line's CSV files read through the one CSV reader (src/lib/spectra/csv.ts), as a matrix: one spectrum per
+// row, numeric column headers as the axis. Delimiter, decimal comma, gap spellings, encodings and refusals are the
+// upload's, so `lotgate` and the server read one file the same way. This module adds only what the command line asks
+// of a table: named columns that must exist, the id column, and its own error type.
 import type { AxisUnit } from '../analysis';
+import { readText } from '../spectra/bytes';
+import { parseCsv } from '../spectra/csv';
+import { SpectrumFileError } from '../spectra/errors';
+import type { ParsedFile } from '../spectra/types';
 
 export class CliError extends Error {
 	constructor(message: string) {
@@ -20,64 +27,37 @@ export interface CsvSpectrum {
 
 export interface CsvTable {
 	file: string;
-	headers: string[];
-	axisColumns: number[];
-	idColumn: number | null;
+	/** The non-numeric columns, in file order. */
+	metaColumns: string[];
+	idColumn: string | null;
 	spectra: CsvSpectrum[];
 }
 
-const isNumberHeader = (h: string): boolean => h.trim() !== '' && Number.isFinite(Number(h.trim()));
+/** A parser refusal in the command line's words: "FILE: line N: problem". */
+export const fileProblem = (e: SpectrumFileError) => `${e.line !== undefined ? `line ${e.line}: ` : ''}${e.problem}`;
 
 /**
- * One spectrum per row. Columns whose header parses as a number form the axis; the others are
- * metadata; the id column defaults to the first non-numeric column. Blank spectral cells become
- * NaN only when `blankAsNaN` (screening reports them); text in a spectral cell is always an error.
+ * One spectrum per row. Columns whose header is a number form the axis (in `unit`, nm unless given); the others are
+ * metadata; the id column defaults to the first of them, else the row is "line N". Missing values are gaps (NaN)
+ * only when `blankAsNaN` (screening reports them); text in a spectral cell is always an error.
  */
-export function readSpectraCsv(text: string, file: string, options: { unit?: AxisUnit; idColumn?: string; blankAsNaN?: boolean; required?: string[] } = {}): CsvTable {
+export function readSpectraCsv(bytes: Uint8Array, file: string, options: { unit?: AxisUnit; idColumn?: string; blankAsNaN?: boolean; required?: string[] } = {}): CsvTable {
 	const { unit = 'nm', blankAsNaN = false } = options;
-	const parsed = Papa.parse<string[]>(text.replace(/^\uFEFF/, ''), { header: false, skipEmptyLines: 'greedy', dynamicTyping: false });
-	const err = parsed.errors.find((e) => e.type !== 'Delimiter');
-	if (err) throw new CliError(`${file}: line ${(err.row ?? 0) + 1}: ${err.message}`);
-	const rows = parsed.data;
-	if (rows.length < 2) throw new CliError(`${file}: needs a header line and at least one spectrum`);
-	const headers = rows[0].map((h) => h.trim());
-	const axisColumns = headers.flatMap((h, i) => (isNumberHeader(h) ? [i] : []));
-	if (axisColumns.length < 2) throw new CliError(`${file}: line 1: fewer than 2 column headers parse as numbers, so there is no spectral axis`);
-	for (const name of options.required ?? [])
-		if (!headers.includes(name)) throw new CliError(`${file}: line 1: no column named "${name}" (columns: ${headers.filter((h) => !isNumberHeader(h)).join(', ') || 'none besides the axis'})`);
-	let idColumn: number | null;
-	if (options.idColumn !== undefined) {
-		idColumn = headers.indexOf(options.idColumn);
-		if (idColumn < 0) throw new CliError(`${file}: line 1: no id column named "${options.idColumn}"`);
-	} else {
-		const first = headers.findIndex((h) => !isNumberHeader(h));
-		idColumn = first < 0 ? null : first;
+	let parsed: ParsedFile;
+	try {
+		parsed = parseCsv(readText(bytes, file), file, { unit, allowGaps: blankAsNaN, minPoints: 2, layout: 'matrix' });
+	} catch (e) {
+		if (e instanceof SpectrumFileError) throw new CliError(`${file}: ${fileProblem(e)}`);
+		throw e;
 	}
-	const axis = Float64Array.from(axisColumns.map((i) => Number(headers[i])));
-	const spectra: CsvSpectrum[] = [];
-	for (let r = 1; r < rows.length; r++) {
-		const row = rows[r];
-		const line = r + 1;
-		if (row.length !== headers.length) throw new CliError(`${file}: line ${line}: has ${row.length} columns, the header has ${headers.length}`);
-		const values = new Float64Array(axisColumns.length);
-		axisColumns.forEach((c, k) => {
-			const cell = row[c].trim();
-			if (cell === '') {
-				if (!blankAsNaN) throw new CliError(`${file}: line ${line}, column ${c + 1} ("${headers[c]}"): empty spectral value`);
-				values[k] = Number.NaN;
-				return;
-			}
-			const v = Number(cell);
-			if (Number.isNaN(v) && !/^nan$/i.test(cell)) throw new CliError(`${file}: line ${line}, column ${c + 1} ("${headers[c]}"): "${cell}" is not a number`);
-			if (!Number.isFinite(v) && !blankAsNaN) throw new CliError(`${file}: line ${line}, column ${c + 1} ("${headers[c]}"): "${cell}" is not a finite number`);
-			values[k] = v;
-		});
-		const meta: Record<string, string> = {};
-		headers.forEach((h, i) => {
-			if (!isNumberHeader(h)) meta[h] = row[i].trim();
-		});
-		const id = idColumn === null ? `line ${line}` : row[idColumn].trim() || `line ${line}`;
-		spectra.push({ id, line, axis, values, unit, meta });
-	}
-	return { file, headers, axisColumns, idColumn, spectra };
+	const metaColumns = parsed.metaColumns ?? [];
+	const columns = () => metaColumns.join(', ') || 'none besides the axis';
+	for (const name of options.required ?? []) if (!metaColumns.includes(name)) throw new CliError(`${file}: the header has no column named "${name}" (columns: ${columns()})`);
+	if (options.idColumn !== undefined && !metaColumns.includes(options.idColumn)) throw new CliError(`${file}: the header has no id column named "${options.idColumn}" (columns: ${columns()})`);
+	const idColumn = options.idColumn ?? metaColumns[0] ?? null;
+	const spectra = parsed.spectra.map((s) => {
+		const line = s.line ?? 0;
+		return { id: (idColumn === null ? '' : s.meta[idColumn]) || `line ${line}`, line, axis: s.axis, values: s.values, unit: s.unit, meta: s.meta };
+	});
+	return { file, metaColumns, idColumn, spectra };
 }

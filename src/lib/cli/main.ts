@@ -24,7 +24,8 @@ import {
 	describePath
 } from '../analysis';
 import { identify, type FamilyCandidate } from '../analysis/identify';
-import { CliError, readSpectraCsv } from './csv';
+import { parseSpectrumFile, SpectrumFileError } from '../spectra';
+import { CliError, fileProblem, readSpectraCsv } from './csv';
 
 export interface CliIo {
 	stdout: (text: string) => void;
@@ -60,13 +61,15 @@ with children gets one one-class model per child, or a discriminant classifier w
 (that model's meta.material, set with --meta material=NAME at build, else its file name).
 `;
 
-function readText(file: string, what: string): string {
+function readBytes(file: string, what: string): Uint8Array {
 	try {
-		return readFileSync(file, 'utf8');
+		return readFileSync(file);
 	} catch (e) {
 		throw new CliError(`${file}: cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
 	}
 }
+
+const readText = (file: string, what: string): string => new TextDecoder().decode(readBytes(file, what));
 
 function unitOf(v: string | undefined): AxisUnit {
 	if (v === undefined) return 'nm';
@@ -126,7 +129,7 @@ function runBuild(args: string[], io: CliIo): number {
 	const file = values.train;
 	const classCol = values['class-column'];
 	const groupCol = values['group-column'];
-	const table = readSpectraCsv(readText(file, 'the training file'), file, {
+	const table = readSpectraCsv(readBytes(file, 'the training file'), file, {
 		unit: unitOf(values.unit),
 		idColumn: values['id-column'],
 		required: [classCol, groupCol].filter((x): x is string => x !== undefined)
@@ -191,23 +194,6 @@ function runBuild(args: string[], io: CliIo): number {
 	// deeper levels: one line per split
 	for (const n of walkTree(treeOf(artefact))) if (n.path.length > 0 && n.split) io.stderr(`  ${n.path.join('/')} (${n.n} spectra): ${n.split.classifier ?? `one-class, ${n.split.components}`}\n`);
 	return 0;
-}
-
-interface ParsedLike {
-	spectra: { id: string | null; axis: Float64Array; values: Float64Array; unit: AxisUnit; title: string | null }[];
-}
-
-type ParseSpectrumFile = (bytes: Uint8Array, fileName: string, options?: { allowGaps?: boolean }) => ParsedLike;
-
-async function loadSpectrumParser(): Promise<ParseSpectrumFile> {
-	const spec = '../spectra/index.ts';
-	try {
-		const mod = (await import(/* @vite-ignore */ spec)) as { parseSpectrumFile?: ParseSpectrumFile };
-		if (typeof mod.parseSpectrumFile !== 'function') throw new Error('parseSpectrumFile missing');
-		return mod.parseSpectrumFile;
-	} catch (e) {
-		throw new CliError(`JCAMP-DX input needs the spectrum file parser (src/lib/spectra), which could not be loaded: ${(e as Error).message}`);
-	}
 }
 
 const statsFields = (s: ModelStats | null) =>
@@ -282,7 +268,6 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 		const ext = extname(file).toLowerCase();
 		let inputs: SpectrumInput[];
 		if (ext === '.jdx' || ext === '.dx' || ext === '.jcamp') {
-			const parse = await loadSpectrumParser();
 			let bytes: Uint8Array;
 			try {
 				bytes = readFileSync(file);
@@ -290,12 +275,12 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 				results.push(unreadable(file, `cannot read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`));
 				continue;
 			}
-			let parsed: ParsedLike;
+			let parsed: ReturnType<typeof parseSpectrumFile>;
 			try {
-				parsed = parse(bytes, basename(file), { allowGaps: true });
+				parsed = parseSpectrumFile(bytes, basename(file), { allowGaps: true });
 			} catch (e) {
-				const err = e as { message: string; line?: number };
-				results.push(unreadable(file, `${err.line ? `line ${err.line}: ` : ''}${err.message}`));
+				if (!(e instanceof SpectrumFileError)) throw e;
+				results.push(unreadable(file, fileProblem(e)));
 				continue;
 			}
 			inputs = parsed.spectra.map((s, k) => ({
@@ -306,7 +291,7 @@ async function runScreen(args: string[], io: CliIo): Promise<number> {
 			}));
 		} else {
 			try {
-				inputs = readSpectraCsv(readText(file, 'the input'), file, { unit, idColumn: values['id-column'], blankAsNaN: true }).spectra;
+				inputs = readSpectraCsv(readBytes(file, 'the input'), file, { unit, idColumn: values['id-column'], blankAsNaN: true }).spectra;
 			} catch (e) {
 				if (!(e instanceof CliError)) throw e;
 				results.push(unreadable(file, e.message.startsWith(`${file}: `) ? e.message.slice(file.length + 2) : e.message));

@@ -1,5 +1,9 @@
 // CSV/TSV spectra through papaparse: a two-column x,y file, or a matrix with one spectrum per row
-// whose numeric column headers form the axis (the layout the `lotgate` command line reads).
+// whose numeric column headers form the axis (the layout the `lotgate` command line reads). The one CSV reader:
+// uploads and the command line (src/lib/cli/csv.ts) both read through it, so a file reads the same everywhere.
+//
+// Delimiter: guessed among ';', tab, ',' and '|'. With ';', tab or '|' a decimal comma is read ("0,5" = 0.5).
+// Gaps: an empty cell, NaN, NA, N/A, #N/A, -, ? or ±inf(inity) is a missing value (refused unless allowGaps).
 //
 // Axis unit rule, in this order:
 //   1. a unit named in the x column's header of an x,y file: "nm"/"nanometers" → nm;
@@ -59,7 +63,7 @@ interface Row {
 
 /** `text` as returned by readText (already refused when empty or binary). */
 export function parseCsv(text: string, file: string, options: ParseOptions = {}): ParsedFile {
-	const { allowGaps = false, minPoints = 50 } = options;
+	const { allowGaps = false, minPoints = 50, layout = 'auto' } = options;
 	// Papa guesses the delimiter from the first rows, blank lines aside; ';' and tab go first because
 	// with a decimal comma ',' would also split every row evenly.
 	const guess = Papa.parse<string[]>(text, { header: false, skipEmptyLines: 'greedy', preview: 10, delimitersToGuess: [';', '\t', ',', '|'] });
@@ -100,7 +104,7 @@ export function parseCsv(text: string, file: string, options: ParseOptions = {})
 					if (cols < 2)
 						throw new SpectrumFileError('csv-shape', file, 'the first line has a single column; expected x,y columns or one spectrum per row separated by commas, semicolons or tabs', lineNo);
 					header = cells.slice(0, cols).map((c) => c.trim());
-					if (cols === 2) {
+					if (cols === 2 && layout === 'auto') {
 						xy = new XyCollector(file, decimalComma, cellOf(header[0], decimalComma).kind !== 'number');
 						if (!xy.hasHeader) xy.add(cells, lineNo);
 					} else rows.push({ cells, line: lineNo });
@@ -206,7 +210,7 @@ function matrixFile(rows: Row[], header: string[], file: string, decimalComma: b
 		const values = new Float64Array(axisCols.length);
 		axisCols.forEach((c, k) => {
 			const v = cellOf(r.cells[c] ?? '', decimalComma);
-			if (v.kind === 'text') throw new SpectrumFileError('bad-number', file, `column "${header[c]}" holds "${(r.cells[c] ?? '').trim().slice(0, 30)}", which is not a number`, r.line);
+			if (v.kind === 'text') throw new SpectrumFileError('bad-number', file, `column ${c + 1} ("${header[c]}") holds "${(r.cells[c] ?? '').trim().slice(0, 30)}", which is not a number`, r.line);
 			values[k] = v.kind === 'number' ? v.value : Number.NaN;
 		});
 		const meta: Record<string, string> = {};

@@ -45,4 +45,7 @@ export interface ParseOptions {
 	minPoints?: number;
 	/** CSV only: the axis unit to assume when no header names one (see csv.ts for the rule). */
 	unit?: AxisUnit;
+	/** CSV only: 'matrix' reads one spectrum per row even with two columns (the command line's training and input
+	 * files); 'auto' (default) reads two columns as x,y. */
+	layout?: 'auto' | 'matrix';
 }

@@ -61,7 +61,7 @@ describe('lotgate command line on the gasoline CSV (Kalivas 1997)', () => {
 		writeFileSync(bad, 'id,900,902,904\na,1,2,3\nb,1,x,3\n');
 		const r = run('build', '--train', bad, '--out', join(dir, 'x.json'));
 		expect(r.status).toBe(1);
-		expect(r.stderr).toContain(`${bad}: line 3, column 3 ("902"): "x" is not a number`);
+		expect(r.stderr).toContain(`${bad}: line 3: column 3 ("902") holds "x", which is not a number`);
 		const u = run('build', '--train', fixture('gasoline_nir.csv'));
 		expect(u.status).not.toBe(0);
 		expect(u.stderr).toMatch(/--out/);
