@@ -10,6 +10,7 @@ import { readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { builtinModules } from 'node:module';
 import { relative, resolve } from 'node:path';
 import { projectRoot as root, recordBuild, sourceHash } from './lib/build-stamp.mjs';
+import { startBundleOptions } from './lib/start-bundle.mjs';
 
 // `--dist-only` compiles dist/ alone (quick, for the command line); the stamp is then left as it was.
 const distOnly = process.argv.includes('--dist-only');
@@ -59,6 +60,14 @@ for (const [name, [source, contents]] of Object.entries(ENTRIES)) {
 	const inputs = Object.keys(result.metafile.inputs).filter((f) => !f.includes('node_modules') && !f.endsWith('.entry.ts'));
 	writeFileSync(resolve(out, `${name}.inputs.json`), JSON.stringify(inputs.map((f) => relative(root, resolve(root, f)))));
 	console.log(`[build] dist/${name}.js from ${source} (${inputs.length} source files)`);
+}
+
+// The launcher of `npm start` (bin/start.js runs it): see scripts/lib/start-bundle.mjs.
+{
+	const result = await build(startBundleOptions(root, resolve(out, 'start')));
+	const inputs = Object.keys(result.metafile.inputs).filter((f) => !f.includes('node_modules'));
+	writeFileSync(resolve(out, 'start.inputs.json'), JSON.stringify(inputs.map((f) => relative(root, resolve(root, f)))));
+	console.log(`[build] dist/start/start.js from scripts/start.ts (${inputs.length} source files, ${Object.keys(result.metafile.outputs).length} files)`);
 }
 
 if (!distOnly) recordBuild(hash);

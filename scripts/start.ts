@@ -11,6 +11,7 @@ import { noiseFilter } from './lib/build-noise.mjs';
 import { buildIsCurrent, sourceHash } from './lib/build-stamp.mjs';
 import { projectRoot, stopCluster } from './lib/postgres';
 import { startBanner } from './lib/start-banner';
+import { DEMO_ACCOUNTS } from '../src/lib/server/demo/accounts';
 import { authSecret, dataRoot, resolveDatabase } from './lib/runtime';
 
 // A launcher killed with SIGKILL cannot stop its app; that orphan would hold the port. Stop it before starting again.
@@ -33,6 +34,8 @@ if (existsSync(childPidFile)) {
 }
 
 const started = Date.now();
+// Seconds this process spent loading before its first line ran (the compiled launcher vs the TypeScript loader).
+const loadedAfter = process.uptime();
 const port = Number(process.env.PORT ?? 3000);
 const { url, ownerUrl, embedded } = await resolveDatabase();
 const demo = process.env.LOTGATE_DEMO ? process.env.LOTGATE_DEMO === '1' : embedded;
@@ -105,6 +108,8 @@ if (process.env.LOTGATE_SKIP_BUILD !== '1') {
 	if (buildIsCurrent(hash)) {
 		console.log('[start] the build is current (sources and lockfile unchanged): not rebuilding');
 	} else {
+		// Compiled, this launcher loads its later parts from dist/start/, which the build replaces: load them first.
+		if (demo) await (await import('./lib/services')).preload();
 		console.log('[start] building the app…');
 		const status = await buildQuietly();
 		if (status !== 0) process.exit(status);
@@ -135,6 +140,7 @@ if (demo) {
 	smtpPort = Number(process.env.LOTGATE_SMTP_PORT || 0) || (await freePort());
 	env.SMTP_URL = `smtp://127.0.0.1:${smtpPort}`;
 }
+const spawnedAt = Date.now();
 const app = spawn(process.execPath, [resolve(projectRoot, 'build/index.js')], { cwd: projectRoot, stdio: 'inherit', env });
 const services = await import('./lib/services');
 const smtp = demo ? await services.startMailFake({ ...env, LOTGATE_SMTP_PORT: String(smtpPort) }) : null;
@@ -170,11 +176,13 @@ async function answering(): Promise<boolean> {
 // Not on 'spawn': that event has passed while the mail recorder started.
 void (async () => {
 	if (!(await answering())) return;
-	const seconds = (Date.now() - started) / 1000;
-	const accounts = demo ? (await import('../src/lib/server/demo/seed')).DEMO_ACCOUNTS : null;
+	const seconds = loadedAfter + (Date.now() - started) / 1000; // from this process's start
+	const phases = { launcher: loadedAfter, checks: (spawnedAt - started) / 1000, app: (Date.now() - spawnedAt) / 1000 };
+	const accounts = demo ? DEMO_ACCOUNTS : null;
 	const lines = startBanner({
 		url: `http://127.0.0.1:${port}`,
 		seconds,
+		phases,
 		database: embedded ? `embedded PostgreSQL, ${url}` : 'external (DATABASE_URL)',
 		accounts,
 		password: process.env.LOTGATE_DEMO_PASSWORD || 'demo-lotgate'

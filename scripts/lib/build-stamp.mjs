@@ -6,11 +6,18 @@ import { existsSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
-export const projectRoot = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
+/** The folder holding package.json, found upwards from this file (also from its compiled copy in dist/start/). */
+function findProjectRoot(/** @type {string} */ from) {
+	for (let dir = from; ; dir = dirname(dir)) {
+		if (existsSync(resolve(dir, 'package.json'))) return dir;
+		if (dirname(dir) === dir) return from;
+	}
+}
+export const projectRoot = findProjectRoot(dirname(fileURLToPath(import.meta.url)));
 const TREES = ['src', 'static', 'scripts/lib'];
-const FILES = ['package.json', 'package-lock.json', 'svelte.config.js', 'vite.config.ts', 'tailwind.config.ts', 'tsconfig.json', 'scripts/build.mjs', 'scripts/migrate.ts', 'scripts/audit-verify.ts', 'scripts/audit-checkpoint.ts', 'scripts/worker.ts'];
+const FILES = ['package.json', 'package-lock.json', 'svelte.config.js', 'vite.config.ts', 'tailwind.config.ts', 'tsconfig.json', 'scripts/build.mjs', 'scripts/migrate.ts', 'scripts/audit-verify.ts', 'scripts/audit-checkpoint.ts', 'scripts/worker.ts', 'scripts/start.ts'];
 /** What the build produces; all must exist for the stamp to count. */
-const OUTPUTS = ['build/index.js', 'dist/lotgate.js', 'dist/migrate.js', 'dist/audit-verify.js', 'dist/audit-checkpoint.js', 'dist/worker.js'];
+const OUTPUTS = ['build/index.js', 'dist/lotgate.js', 'dist/migrate.js', 'dist/audit-verify.js', 'dist/audit-checkpoint.js', 'dist/worker.js', 'dist/start/start.js'];
 const stampFile = resolve(projectRoot, 'build', '.source-hash');
 
 /** @param {string} dir @param {string[]} out */

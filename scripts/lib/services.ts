@@ -9,9 +9,14 @@ export interface RunningService {
  */
 export async function startMailFake(env: NodeJS.ProcessEnv): Promise<RunningService | null> {
 	if (!env.DATABASE_URL) throw new Error('startMailFake needs DATABASE_URL (the fake stores what it receives in PostgreSQL)');
-	const { startSmtpFake } = await import('../../src/lib/server/mail-fake');
+	const { startSmtpFake } = await preload();
 	const fake = await startSmtpFake({ databaseUrl: env.DATABASE_URL, port: env.LOTGATE_SMTP_PORT ? Number(env.LOTGATE_SMTP_PORT) : 0 });
 	env.SMTP_URL = fake.url;
 	console.log(`[start] local mail recorder on ${fake.url} (messages appear in Admin → Demo inbox)`);
 	return { close: fake.close };
+}
+
+/** Loads the mail recorder's code now (the compiled launcher does this before a build replaces dist/start/). */
+export function preload() {
+	return import('../../src/lib/server/mail-fake');
 }

@@ -88,4 +88,45 @@ describe('the closing lines of npm start', () => {
 		expect(lines.at(-1)).toBe('Lotgate is serving on http://127.0.0.1:8080 (ready in 3.0 s)');
 		expect(lines.join('\n')).not.toContain('Demo accounts');
 	});
+	it('says where the start time went when the phases are given', () => {
+		const lines = startBanner({ url: 'http://127.0.0.1:8080', seconds: 7.04, phases: { launcher: 0.41, checks: 1.26, app: 5.37 }, database: 'external (DATABASE_URL)', accounts: null, password: 'x' });
+		expect(lines.at(-1)).toBe('Lotgate is serving on http://127.0.0.1:8080 (ready in 7.0 s; launcher loaded in 0.4 s, checks 1.3 s, app boot 5.4 s)');
+	});
+});
+
+describe('the compiled launcher (dist/start/)', () => {
+	it('loads neither Sequelize, the migrations, the demo seed nor the mail recorder before the app is spawned', async () => {
+		const { build } = await import('esbuild');
+		const { mkdtempSync, rmSync } = await import('node:fs');
+		const { tmpdir } = await import('node:os');
+		const { join, resolve } = await import('node:path');
+		const { startBundleOptions } = await import('../../scripts/lib/start-bundle.mjs');
+		const root = resolve(import.meta.dirname, '../..');
+		const out = mkdtempSync(join(tmpdir(), 'lotgate-start-'));
+		try {
+			const { metafile } = await build({ ...startBundleOptions(root, out), write: false, logLevel: 'silent' });
+			const outputs = metafile!.outputs;
+			const entry = Object.keys(outputs).find((f) => outputs[f].entryPoint?.endsWith('scripts/start.ts'))!;
+			// everything the first file loads at once: its static imports, followed through the shared chunks
+			const eager = new Set<string>();
+			const walk = (file: string) => {
+				for (const i of outputs[file]?.imports ?? []) {
+					if (i.kind !== 'import-statement' || eager.has(i.path)) continue;
+					eager.add(i.path);
+					walk(i.path);
+				}
+			};
+			walk(entry);
+			const eagerSources = [entry, ...eager].flatMap((f) => Object.keys(outputs[f]?.inputs ?? {}));
+			expect(eagerSources).toContain('scripts/start.ts');
+			expect(eagerSources).toContain('src/lib/server/demo/accounts.ts');
+			for (const late of ['src/lib/server/demo/seed.ts', 'src/lib/server/db/migrate.ts', 'src/lib/server/db/index.ts', 'src/lib/server/mail-fake.ts']) expect(eagerSources).not.toContain(late);
+			expect([...eager].filter((p) => !p.includes('/'))).not.toContain('sequelize');
+			// and they are still there, for a start that migrates or seeds
+			const all = Object.values(outputs).flatMap((o) => Object.keys(o.inputs));
+			expect(all).toContain('src/lib/server/demo/seed.ts');
+		} finally {
+			rmSync(out, { recursive: true, force: true });
+		}
+	});
 });

@@ -1,6 +1,6 @@
 // The invented demo scenario (Quarrymoor Pharmaceuticals, demo only): accounts, suppliers, instruments, materials.
-import type { Role } from '../../permissions';
 import { models } from '../db';
+import { DEMO_ACCOUNTS } from './accounts';
 import { type Actor } from '../services/actor';
 import * as instruments from '../services/instruments';
 import * as materials from '../services/materials';
@@ -10,14 +10,7 @@ import { config } from '../config';
 
 export const DEMO_COMPANY = 'Quarrymoor Pharmaceuticals (demo)';
 
-export const DEMO_ACCOUNTS: { email: string; name: string; roles: Role[] }[] = [
-	{ email: 'technician@demo.test', name: 'Tomasz Reyne', roles: ['technician'] },
-	{ email: 'chemist@demo.test', name: 'Ilse Marwood', roles: ['chemometrician'] },
-	{ email: 'qa@demo.test', name: 'Priya Halvorsen', roles: ['qa'] },
-	{ email: 'qa2@demo.test', name: 'Dominic Ashgrove', roles: ['qa'] },
-	{ email: 'buyer@demo.test', name: 'Lena Okafor-Brandt', roles: ['procurement'] },
-	{ email: 'admin@demo.test', name: 'Sam Whitlock', roles: ['admin'] }
-];
+export { DEMO_ACCOUNTS };
 
 export const demoPassword = () => config().LOTGATE_DEMO_PASSWORD;
 
