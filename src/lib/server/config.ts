@@ -43,7 +43,9 @@ const schema = z.object({
 	LOTGATE_AUDIT_ARCHIVE: text,
 	LOTGATE_CHECKPOINT_INTERVAL_MS: positive('LOTGATE_CHECKPOINT_INTERVAL_MS', 3_600_000),
 	LOTGATE_JOBS_IN_PROCESS: flag,
-	LOTGATE_APP_ROLE: z.string().optional().transform((v) => v || 'lotgate_app')
+	LOTGATE_APP_ROLE: z.string().optional().transform((v) => v || 'lotgate_app'),
+	/** 'production' turns off the zod check of raw query rows (src/lib/server/db/rows.ts). */
+	NODE_ENV: z.string().optional()
 });
 export type Config = z.output<typeof schema>;
 

@@ -2,6 +2,7 @@ import pg from 'pg';
 import { Sequelize, Transaction } from 'sequelize';
 import { defineModels, type Models } from './models';
 import { config } from '../config';
+import { registerTypeParsers } from './pg-types';
 
 let instance: { sequelize: Sequelize; models: Models } | null = null;
 
@@ -14,6 +15,7 @@ export function databaseUrl(): string {
 
 function connect() {
 	if (!instance) {
+		registerTypeParsers();
 		const sequelize = new Sequelize(databaseUrl(), {
 			dialect: 'postgres',
 			dialectModule: pg,
