@@ -46,6 +46,13 @@ export async function selectOne<T>(schema: RowSchema<T>, sql: string, options: R
 	return (await select(schema, sql, options))[0];
 }
 
+/** The one row an INSERT … RETURNING or UPDATE … RETURNING must give back; an error when there is none. */
+export async function returning<T>(schema: RowSchema<T>, sql: string, options: RowQueryOptions = {}): Promise<T> {
+	const row = await selectOne(schema, sql, options);
+	if (row === undefined) throw new Error('The statement returned no row, though one was expected');
+	return row;
+}
+
 /** Column helpers shared by the row schemas: ids and counts are numbers (see pg-types.ts), timestamps are Dates. */
 export const col = {
 	id: z.number().int(),

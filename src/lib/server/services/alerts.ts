@@ -13,10 +13,11 @@ import { can } from '../../permissions';
 // wrong technique or axis) and `not-screened` (no approved model) open no alert: they are laboratory problems, not the
 // supplier's. An alert, once opened by a valid non-genuine scan, stays even if that scan is later invalidated; the
 // invalidation is added to its findings (see `noteInvalidation`) and procurement closes it.
-import { QueryTypes, type Transaction } from 'sequelize';
+import type { Transaction } from 'sequelize';
 import { z } from 'zod';
 import { proseText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
+import { col, returning, select, selectOne, type RowSchema } from '../db/rows';
 import { queueMail } from '../mail';
 import { hasRole, type Actor } from './actor';
 import { containerLabel } from '../../labels';
@@ -64,22 +65,24 @@ export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFindi
 	if (scan.verdict === 'unusable' || scan.verdict === 'not-screened') return null;
 	const level = SEVERITY_OF[scan.verdict];
 	if (!level) return null;
-	const [lot] = await sequelize().query<{ internal_lot: string; supplier_id: number; material_id: number; supplier_code: string; supplier_name: string; material_code: string }>(
+	const lot = await selectOne(
+		z.object({ internal_lot: col.text, supplier_id: col.id, material_id: col.id, supplier_code: col.text, supplier_name: col.text, material_code: col.text }),
 		`SELECT l.internal_lot, l.supplier_id, l.material_id, s.code AS supplier_code, s.name AS supplier_name, m.code AS material_code
 		   FROM lots l JOIN suppliers s ON s.id = l.supplier_id JOIN materials m ON m.id = l.material_id WHERE l.id = :lotId`,
-		{ replacements: { lotId: scan.lotId }, type: QueryTypes.SELECT, transaction: tx }
+		{ replacements: { lotId: scan.lotId }, transaction: tx }
 	);
 	if (!lot) throw notFound(`Lot ${scan.lotId}`);
 	const finding = { scanId: scan.id, container: scan.container, verdict: scan.verdict, profile: scan.profile ?? null, reason: scan.reason ?? null, severity: level.severity };
-	const live = await sequelize().query<{ id: number; severity_rank: number; severity: Severity; findings: unknown[] }>(
-		"SELECT id, severity_rank, severity, findings FROM alerts WHERE lot_id = :lotId AND kind = 'verdict' AND state <> 'closed' FOR UPDATE",
-		{ replacements: { lotId: scan.lotId }, type: QueryTypes.SELECT, transaction: tx }
+	const live = await select(
+		z.object({ id: col.id, severity_rank: col.id, severity: SeverityCol }),
+		"SELECT id, severity_rank, severity FROM alerts WHERE lot_id = :lotId AND kind = 'verdict' AND state <> 'closed' FOR UPDATE",
+		{ replacements: { lotId: scan.lotId }, transaction: tx }
 	);
 	let alertId: number;
 	let notify = false;
 	if (live[0]) {
 		const a = live[0];
-		alertId = Number(a.id);
+		alertId = a.id;
 		const raise = level.rank > a.severity_rank;
 		await sequelize().query(
 			`UPDATE alerts SET findings = findings || CAST(:finding AS jsonb)${raise ? ', severity = :severity, severity_rank = :rank, verdict = :verdict, profile = :profile, scan_id = :scanId' : ''} WHERE id = :id`,
@@ -94,7 +97,8 @@ export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFindi
 		});
 		notify = raise;
 	} else {
-		const [row] = await sequelize().query<{ id: number }>(
+		const row = await returning(
+			z.object({ id: col.id }),
 			`INSERT INTO alerts (supplier_id, material_id, lot_id, scan_id, severity, severity_rank, verdict, profile, findings)
 			 VALUES (:supplierId, :materialId, :lotId, :scanId, :severity, :rank, :verdict, :profile, CAST(:findings AS jsonb)) RETURNING id`,
 			{
@@ -109,11 +113,10 @@ export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFindi
 					profile: scan.profile ?? null,
 					findings: JSON.stringify([finding])
 				},
-				type: QueryTypes.SELECT,
 				transaction: tx
 			}
 		);
-		alertId = Number(row.id);
+		alertId = row.id;
 		await audit.record(tx, actor, {
 			action: 'alert.opened',
 			entity: 'alert',
@@ -143,7 +146,7 @@ export async function openForScan(tx: Transaction, actor: Actor, scan: ScanFindi
 }
 
 async function procurementRecipients(tx: Transaction): Promise<string[]> {
-	const rows = await sequelize().query<{ email: string }>("SELECT email FROM users WHERE active AND 'procurement' = ANY(roles) ORDER BY email", { type: QueryTypes.SELECT, transaction: tx });
+	const rows = await select(z.object({ email: col.text }), "SELECT email FROM users WHERE active AND 'procurement' = ANY(roles) ORDER BY email", { transaction: tx });
 	return rows.map((r) => r.email);
 }
 
@@ -201,12 +204,13 @@ const EMPTY_CURRENT: AlertCurrent = { findings: [], lot: { status: 'awaiting-sca
 async function attachCurrent(views: AlertView[], tx?: Transaction): Promise<AlertView[]> {
 	const lotIds = [...new Set(views.map((v) => v.lot.id))];
 	if (!lotIds.length) return views;
-	const q = <T extends object>(sql: string) => sequelize().query<T>(sql, { replacements: { lotIds }, type: QueryTypes.SELECT, transaction: tx });
+	const q = <T>(schema: RowSchema<T>, sql: string) => select(schema, sql, { replacements: { lotIds }, transaction: tx });
 	const [lotRows, scanRows, invalidationLists, dispRows] = await Promise.all([
-		q<{ id: number; status: LotStatus; sampled: number[]; replicates: number }>("SELECT id, status, sampled, coalesce((plan->>'replicates')::integer, 1) AS replicates FROM lots WHERE id IN (:lotIds)"),
-		q<{ id: number; lot_id: number; container: number; verdict: string; profile: string | null }>('SELECT id, lot_id, container, verdict, profile FROM scans WHERE lot_id IN (:lotIds) ORDER BY id'),
+		q(z.object({ id: col.id, status: LotStatusCol, sampled: z.array(col.id), replicates: col.id }), "SELECT id, status, sampled, coalesce((plan->>'replicates')::integer, 1) AS replicates FROM lots WHERE id IN (:lotIds)"),
+		q(z.object({ id: col.id, lot_id: col.id, container: col.id, verdict: col.text, profile: col.text.nullable() }), 'SELECT id, lot_id, container, verdict, profile FROM scans WHERE lot_id IN (:lotIds) ORDER BY id'),
 		Promise.all(lotIds.map((id) => containerResults.forLot(id, tx))),
-		q<{ id: number; lot_id: number; decision: string; state: string; effective_at: Date | null; created_at: Date; first: string; second: string | null }>(
+		q(
+			z.object({ id: col.id, lot_id: col.id, decision: col.text, state: col.text, effective_at: col.date.nullable(), created_at: col.date, first: col.text, second: col.text.nullable() }),
 			`SELECT d.id, d.lot_id, d.decision, d.state, d.effective_at, d.created_at, s1.signer_name AS first, s2.signer_name AS second
 			   FROM dispositions d JOIN signatures s1 ON s1.id = d.signature_id LEFT JOIN signatures s2 ON s2.id = d.second_signature_id
 			  WHERE d.lot_id IN (:lotIds) AND d.state IN ('effective', 'awaiting-second-signature')`
@@ -220,27 +224,27 @@ async function attachCurrent(views: AlertView[], tx?: Transaction): Promise<Aler
 	}
 	const byLot = new Map<number, LotNow>();
 	for (const lot of lotRows) {
-		const lotId = Number(lot.id);
-		const scans = scanRows.filter((r) => Number(r.lot_id) === lotId).map((r) => ({ id: Number(r.id), container: Number(r.container), verdict: r.verdict, profile: r.profile }));
+		const lotId = lot.id;
+		const scans = scanRows.filter((r) => r.lot_id === lotId).map((r) => ({ id: r.id, container: r.container, verdict: r.verdict, profile: r.profile }));
 		const invalidations = invalidationLists[lotIds.indexOf(lotId)] ?? [];
-		const sampled = (lot.sampled ?? []).map(Number);
-		const results = containerResults.resultsOf(scans, invalidations, [...new Set([...sampled, ...scans.map((x) => x.container)])], Number(lot.replicates) || 1);
+		const sampled = lot.sampled;
+		const results = containerResults.resultsOf(scans, invalidations, [...new Set([...sampled, ...scans.map((x) => x.container)])], lot.replicates || 1);
 		const identity = lotIdentity(sampled.map((c) => results.get(c)!));
-		const effective = dispRows.find((d) => Number(d.lot_id) === lotId && d.state === 'effective');
-		const pending = dispRows.find((d) => Number(d.lot_id) === lotId && d.state === 'awaiting-second-signature');
+		const effective = dispRows.find((d) => d.lot_id === lotId && d.state === 'effective');
+		const pending = dispRows.find((d) => d.lot_id === lotId && d.state === 'awaiting-second-signature');
 		byLot.set(lotId, {
 			summary: {
 				lot: { status: lot.status, statusText: STATUS_LABELS[lot.status] ?? lot.status, identity, identityText: identity ? IDENTITY_LABELS[identity] : null },
 				disposition: effective
 					? {
-							id: Number(effective.id),
+							id: effective.id,
 							decision: effective.decision,
 							decisionText: DECISION_TEXT[effective.decision] ?? effective.decision,
 							signedBy: [effective.first, effective.second].filter((x): x is string => !!x),
-							at: new Date(effective.effective_at ?? effective.created_at).toISOString()
+							at: (effective.effective_at ?? effective.created_at).toISOString()
 						}
 					: null,
-				pending: pending ? { id: Number(pending.id), decision: pending.decision, signedBy: pending.first, at: new Date(pending.created_at).toISOString() } : null
+				pending: pending ? { id: pending.id, decision: pending.decision, signedBy: pending.first, at: pending.created_at.toISOString() } : null
 			},
 			scans,
 			latestInvalidation: containerResults.latestByScan(invalidations),
@@ -278,25 +282,68 @@ const SELECT = `SELECT a.*, s.code AS supplier_code, s.name AS supplier_name, m.
    FROM alerts a JOIN suppliers s ON s.id = a.supplier_id JOIN materials m ON m.id = a.material_id JOIN lots l ON l.id = a.lot_id
    LEFT JOIN users ua ON ua.id = a.acknowledged_by LEFT JOIN users uc ON uc.id = a.closed_by`;
 
-function toView(r: Record<string, unknown>): AlertView {
-	const iso = (d: unknown) => new Date(d as Date).toISOString();
+const SeverityCol = z.enum(['high', 'medium', 'low']);
+const LotStatusCol = z.enum(['awaiting-scans', 'screened', 'released', 'quarantined', 'rejected']);
+const AlertRow = z.object({
+	id: col.id,
+	kind: z.enum(['verdict', 'drift']),
+	state: z.enum(['open', 'acknowledged', 'closed']),
+	severity: SeverityCol,
+	severity_rank: col.id,
+	verdict: col.text,
+	profile: col.text.nullable(),
+	supplier_id: col.id,
+	supplier_code: col.text,
+	supplier_name: col.text,
+	material_id: col.id,
+	material_code: col.text,
+	lot_id: col.id,
+	internal_lot: col.text,
+	supplier_lot: col.text,
+	scan_id: col.id.nullable(),
+	// a verdict alert's findings are ScanFinding-like; a drift alert's carry the chart rule (./drift.ts): read as stored
+	findings: z.array(z.any()),
+	invalidations: z.array(
+		z.object({
+			scanId: col.id,
+			container: col.id,
+			state: z.enum(['proposed', 'approved', 'refused']),
+			cause: col.text,
+			description: col.text,
+			proposedBy: col.text,
+			decidedBy: col.text.nullable(),
+			decidedAt: col.text.nullable()
+		})
+	),
+	opened_at: col.date,
+	acknowledged_at: col.date.nullable(),
+	acknowledged_by_name: col.text.nullable(),
+	acknowledge_note: col.text.nullable(),
+	closed_at: col.date.nullable(),
+	closed_by_name: col.text.nullable(),
+	close_note: col.text.nullable(),
+	total: col.count
+});
+type AlertRow = z.infer<typeof AlertRow>;
+
+function toView(r: AlertRow): AlertView {
 	return {
-		id: Number(r.id),
-		kind: (r.kind as 'verdict' | 'drift' | undefined) ?? 'verdict',
-		state: r.state as AlertState,
-		severity: r.severity as Severity,
-		severityRank: Number(r.severity_rank),
-		verdict: r.verdict as string,
-		profile: (r.profile as string | null) ?? null,
-		supplier: { id: Number(r.supplier_id), code: r.supplier_code as string, name: r.supplier_name as string },
-		material: { id: Number(r.material_id), code: r.material_code as string },
-		lot: { id: Number(r.lot_id), internalLot: r.internal_lot as string, supplierLot: r.supplier_lot as string },
-		scanId: r.scan_id == null ? null : Number(r.scan_id),
-		findings: (r.findings as AlertView['findings']) ?? [],
-		invalidations: ((r.invalidations as AlertView['invalidations']) ?? []).map((v) => ({ ...v, decidedAt: v.decidedAt ? new Date(v.decidedAt).toISOString() : null })),
-		openedAt: iso(r.opened_at),
-		acknowledged: r.acknowledged_at ? { by: (r.acknowledged_by_name as string | null) ?? null, at: iso(r.acknowledged_at), note: r.acknowledge_note as string } : null,
-		closed: r.closed_at ? { by: (r.closed_by_name as string | null) ?? null, at: iso(r.closed_at), note: r.close_note as string } : null,
+		id: r.id,
+		kind: r.kind,
+		state: r.state,
+		severity: r.severity,
+		severityRank: r.severity_rank,
+		verdict: r.verdict,
+		profile: r.profile,
+		supplier: { id: r.supplier_id, code: r.supplier_code, name: r.supplier_name },
+		material: { id: r.material_id, code: r.material_code },
+		lot: { id: r.lot_id, internalLot: r.internal_lot, supplierLot: r.supplier_lot },
+		scanId: r.scan_id,
+		findings: r.findings,
+		invalidations: r.invalidations.map((v) => ({ ...v, decidedAt: v.decidedAt ? new Date(v.decidedAt).toISOString() : null })),
+		openedAt: r.opened_at.toISOString(),
+		acknowledged: r.acknowledged_at ? { by: r.acknowledged_by_name, at: r.acknowledged_at.toISOString(), note: r.acknowledge_note ?? '' } : null,
+		closed: r.closed_at ? { by: r.closed_by_name, at: r.closed_at.toISOString(), note: r.close_note ?? '' } : null,
 		current: EMPTY_CURRENT
 	};
 }
@@ -335,13 +382,12 @@ export async function list(query: AlertQuery = {}) {
 	const order = `${SORTS[column] ?? 'a.severity_rank'} ${direction === 'asc' ? 'ASC' : 'DESC'}, a.opened_at DESC, a.id DESC`;
 	const pageSize = Math.min(Math.max(Number(query.pageSize) || 25, 1), 200);
 	const page = Math.max(Number(query.page) || 1, 1);
-	const rows = await sequelize().query<Record<string, unknown>>(`${SELECT} ${where.length ? `WHERE ${where.join(' AND ')}` : ''} ORDER BY ${order} LIMIT :limit OFFSET :offset`, {
-		replacements: { ...replacements, limit: pageSize, offset: (page - 1) * pageSize },
-		type: QueryTypes.SELECT
+	const rows = await select(AlertRow, `${SELECT} ${where.length ? `WHERE ${where.join(' AND ')}` : ''} ORDER BY ${order} LIMIT :limit OFFSET :offset`, {
+		replacements: { ...replacements, limit: pageSize, offset: (page - 1) * pageSize }
 	});
 	return {
 		rows: await attachCurrent(rows.map(toView)),
-		total: rows.length ? Number(rows[0].total) : 0,
+		total: rows.length ? rows[0].total : 0,
 		page,
 		pageSize,
 		sort: `${column in SORTS ? column : 'severity'}${direction === 'asc' ? ':asc' : ':desc'}`
@@ -350,7 +396,7 @@ export async function list(query: AlertQuery = {}) {
 
 export async function get(id: number, tx?: Transaction): Promise<AlertView> {
 	if (!Number.isInteger(id) || id < 1) throw notFound(`Alert ${id}`);
-	const rows = await sequelize().query<Record<string, unknown>>(`${SELECT} WHERE a.id = :id`, { replacements: { id }, type: QueryTypes.SELECT, transaction: tx });
+	const rows = await select(AlertRow, `${SELECT} WHERE a.id = :id`, { replacements: { id }, transaction: tx });
 	if (!rows[0]) throw notFound(`Alert ${id}`);
 	return (await attachCurrent([toView(rows[0])], tx))[0];
 }
@@ -361,7 +407,7 @@ async function step(actor: Actor, id: number, note: string, from: AlertState, to
 	requireProcurement(actor);
 	const { note: text } = noteSchema.parse({ note });
 	return transaction(async (tx) => {
-		const rows = await sequelize().query<{ state: AlertState }>('SELECT state FROM alerts WHERE id = :id FOR UPDATE', { replacements: { id }, type: QueryTypes.SELECT, transaction: tx });
+		const rows = await select(z.object({ state: z.enum(['open', 'acknowledged', 'closed']) }), 'SELECT state FROM alerts WHERE id = :id FOR UPDATE', { replacements: { id }, transaction: tx });
 		if (!rows[0]) throw notFound(`Alert ${id}`);
 		if (rows[0].state !== from) {
 			throw conflict(to === 'acknowledged' ? `Alert ${id} is ${rows[0].state}: only an open alert can be acknowledged` : `Alert ${id} is ${rows[0].state}: acknowledge it before closing it`);
