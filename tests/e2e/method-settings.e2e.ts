@@ -63,15 +63,15 @@ describe('method settings in the browser', () => {
 		await page.goto(`/materials/${code}`);
 		const panel = page.getByTestId('axis-panel');
 		expect(await panel.getByTestId('declared-axis').textContent()).toContain('1100–2498 nm every 2 nm');
-		await panel.getByText('Change the axis').click();
+		await panel.locator('summary', { hasText: 'Change the axis' }).click();
 		const form = panel.getByTestId('axis-form');
 		await form.getByLabel('From').fill('1150');
-		await form.getByRole('button', { name: 'Change the axis' }).click();
+		await form.getByRole('button', { name: 'Save the axis' }).click();
 		await expect.poll(() => form.locator('.field-error').first().textContent()).toContain('needs a reason');
 		expect(await panel.getByTestId('declared-axis').textContent()).toContain('1100–2498 nm every 2 nm');
 		await form.getByLabel('From').fill('1150');
 		await form.getByLabel('Reason for the change (required)').fill('probe window below 1150 nm is noisy on the new dock');
-		await form.getByRole('button', { name: 'Change the axis' }).click();
+		await form.getByRole('button', { name: 'Save the axis' }).click();
 		await expect.poll(() => panel.getByTestId('axis-status').textContent().catch(() => '')).toContain('Axis set to 1150–2498 nm every 2');
 		await expect.poll(() => panel.getByTestId('declared-axis').textContent()).toContain('1150–2498 nm every 2 nm');
 		expect(await panel.textContent()).toContain('probe window below 1150 nm is noisy on the new dock');
@@ -108,7 +108,7 @@ describe('method settings in the browser', () => {
 		await decide.getByLabel('Your password (signs the decision)').fill(DEMO_PASSWORD);
 		await decide.getByRole('button', { name: 'Sign the decision' }).click();
 		await expect.poll(() => decide.locator('.field-error').first().textContent()).toContain('Choose approve or refuse');
-		await decide.getByLabel(/^approve/).check();
+		await decide.getByLabel(/approve: revision 1 applies/).check();
 		expect(await decide.textContent()).toContain('acceptance criteria approved');
 		await decide.getByLabel('Reason for your decision').fill('tighter criteria agreed at the method review meeting');
 		await decide.getByLabel('Your password (signs the decision)').fill(DEMO_PASSWORD);

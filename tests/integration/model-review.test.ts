@@ -177,6 +177,9 @@ describe('revalidation triggers', () => {
 
 		// a library upload changes the material's library
 		const csv = ['class,role,supplier_lot,' + Array.from(own.axis).join(','), ...[1, 2].map((i) => `genuine,training,LIB-${i},` + Array.from(jcampValues(own.axis, 63100 + i)).join(','))].join('\n');
+		// transfer spectra (another instrument's check set) neither train nor validate: no trigger
+		await library.addFiles(chemist.actor, own.materialId, [{ name: 'transfer.csv', bytes: new TextEncoder().encode(csv.replace(/genuine,training,/g, 'genuine,transfer,')) }], { classColumn: 'class' });
+		expect((await triggers()).filter((t) => t.kind === 'library-change')).toEqual([]);
 		await library.addFiles(chemist.actor, own.materialId, [{ name: 'more-genuine.csv', bytes: new TextEncoder().encode(csv) }], { classColumn: 'class' });
 		const lib = (await triggers()).filter((t) => t.kind === 'library-change');
 		expect(lib.map((t) => t.detail)).toEqual(['2 spectra added to the library (more-genuine.csv)']);

@@ -174,8 +174,10 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 			after: { files: files.map((f) => f.name), added: added.length, byRoleAndLabel: summary, ...(outsideAxis.length ? { outsideAxis } : {}) },
 			reason: `library upload of ${added.length} spectra`
 		});
-		// issue 12 §1: a change of the library is a revalidation trigger on the approved version
-		if (added.length) await noteLibraryChange(tx, actor, material.id, `${added.length} spectra added to the library (${files.map((f) => f.name).join(', ')})`);
+		// issue 12 §1: a change of the library is a revalidation trigger on the approved version. Transfer spectra
+		// (another instrument's check set, §18) neither train nor validate a version: their own approval records "new instrument".
+		const changing = added.filter((a) => a.role !== 'transfer');
+		if (changing.length) await noteLibraryChange(tx, actor, material.id, `${changing.length} spectra added to the library (${files.map((f) => f.name).join(', ')})`);
 		return { materialId: material.id, added: added.length, entries: added, byRoleAndLabel: summary, axis, outsideAxis };
 	});
 }
