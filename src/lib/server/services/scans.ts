@@ -126,6 +126,20 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 	// other materials' approved models, for naming a wrong material (loaded before the transaction, cached)
 	const others = model ? await identification.candidates(material.id, preparedVersion) : [];
 	const instrumentId = actor.instrumentId ?? file.instrumentId ?? null;
+	// Parse, and screen, before the transaction (issue 16 §2): the CPU work holds no connection and no lock. The
+	// transaction below checks, stores and decides in the same order as before; the early screening is used only
+	// where that order reaches the model (an error from either is raised there too).
+	const fallbackUnit = material.technique === 'Raman' ? 'cm-1' : 'nm';
+	const prepared = await intake.prepareScanFile(actor, { bytes: file.bytes, sha256: file.sha256, fileName: file.fileName, instrumentId, context: 'lot', contextId: lotId, allowGaps: true }, fallbackUnit);
+	let early: { result: ScreenResult } | { error: unknown } | null = null;
+	if (model && prepared.spectrum) {
+		const p = prepared.spectrum;
+		try {
+			early = { result: screen(model.prep, { id: '', axis: gapsAsNaN(p.axis), values: gapsAsNaN(p.values), unit: p.unit }) };
+		} catch (error) {
+			early = { error };
+		}
+	}
 
 	const outcome = await transaction(async (tx) => {
 		const lot = await lots.lotRow(lotId, tx, true);
@@ -153,12 +167,7 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 		// The intake stores the file inside this transaction (a file that does not read is kept as an unusable scan) and
 		// hands back what it parsed. Gaps are allowed, as `lotgate screen` allows them, so the engine decides whether the
 		// model range is covered and names the missing interval.
-		const ingested = await intake.ingestScanFile(
-			actor,
-			{ bytes: file.bytes, sha256: file.sha256, fileName: file.fileName, instrumentId: instrument?.id ?? null, context: 'lot', contextId: lotId, allowGaps: true },
-			material.technique === 'Raman' ? 'cm-1' : 'nm',
-			tx
-		);
+		const ingested = await prepared.store(tx);
 		const stored: { id: number; sha256: string; title: string | null } = ingested.stored;
 		if (!ingested.ok) {
 			verdict = 'unusable';
@@ -187,7 +196,8 @@ export async function add(actor: Actor, lotRef: number | string, file: ScanFile)
 				verdict = 'unusable';
 				reason = gateReason;
 			} else {
-				result = screen(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
+				if (early && 'error' in early) throw early.error;
+				result = early ? { ...early.result, id: String(s.id) } : screen(model.prep, { id: String(s.id), axis: s.axis, values: s.values, unit: s.unit });
 				if (result.verdict === 'not-this-material') result = { ...result, identification: await identification.forSpectrum(s, others, material.id, tx) } as ScreenResult;
 				verdict = result.verdict;
 				reason = result.reason;

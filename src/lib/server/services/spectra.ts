@@ -206,9 +206,37 @@ export type ScanIngested =
  * reason and no points, in `fallbackUnit` when no instrument names the unit. A file holding several spectra is refused.
  */
 export async function ingestScanFile(actor: Actor, input: Omit<IngestInput, 'keepUnreadable'>, fallbackUnit: AxisUnit, tx: Transaction): Promise<ScanIngested> {
-	const done = await ingest(actor, { ...input, keepUnreadable: { unit: fallbackUnit } }, tx);
+	return scanIngested(await ingest(actor, { ...input, keepUnreadable: { unit: fallbackUnit } }, tx), input.fileName);
+}
+
+/**
+ * A lot scan's file parsed before the scan's transaction (issue 16 §2: no connection is held while the CPU decodes
+ * it); `store` then writes it inside that transaction exactly as ingestScanFile does. An error found while preparing is
+ * raised by `store`, at the point of the scan's checks where ingestScanFile would raise it.
+ */
+export interface PreparedScanFile {
+	/** The one spectrum the file holds, when it reads and holds exactly one. */
+	spectrum: ParsedSpectrum | null;
+	store(tx: Transaction): Promise<ScanIngested>;
+}
+
+export async function prepareScanFile(actor: Actor, input: Omit<IngestInput, 'keepUnreadable'>, fallbackUnit: AxisUnit): Promise<PreparedScanFile> {
+	const full: IngestInput = { ...input, keepUnreadable: { unit: fallbackUnit } };
+	let prepared: Prepared;
+	try {
+		prepared = await prepare(actor, full);
+	} catch (e) {
+		return { spectrum: null, store: () => Promise.reject(e) };
+	}
+	return {
+		spectrum: prepared.parsed?.spectra.length === 1 ? prepared.parsed.spectra[0] : null,
+		store: async (tx) => scanIngested(await storePrepared(actor, full, prepared, tx), input.fileName)
+	};
+}
+
+function scanIngested(done: Done, fileName: string): ScanIngested {
 	if (done.refused) return { ok: false, stored: done.kept, format: done.refused.format, reason: done.refused.reason };
-	if (done.stored.length !== 1) throw invalid(`${done.stored[0]?.fileName ?? input.fileName} holds ${done.stored.length} spectra; a container scan is one spectrum`, 'file');
+	if (done.stored.length !== 1) throw invalid(`${done.stored[0]?.fileName ?? fileName} holds ${done.stored.length} spectra; a container scan is one spectrum`, 'file');
 	return { ok: true, stored: done.stored[0], spectrum: done.parsed.spectra[0] };
 }
 
@@ -257,6 +285,20 @@ async function insertRow(t: Transaction, r: SpectrumRow): Promise<number> {
 
 /** `checked`: the source instrument already resolved and checked by the caller for the whole batch. */
 async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checked?: { instrument: instruments.PublicInstrument | null }): Promise<Done> {
+	return storePrepared(actor, input, await prepare(actor, input, tx, checked), tx);
+}
+
+/** What a file becomes before anything is stored: checked, sourced and parsed (or the reason it cannot be read). */
+interface Prepared {
+	fileName: string;
+	contextId: number | null;
+	instrument: instruments.PublicInstrument | null;
+	parsed: ParsedFile | null;
+	refused: Refusal | null;
+}
+
+/** Checks, sources and parses a file, touching the database only to read the instrument (`tx` when given). */
+async function prepare(actor: Actor, input: IngestInput, tx?: Transaction, checked?: { instrument: instruments.PublicInstrument | null }): Promise<Prepared> {
 	if (!mayUpload(actor)) throw forbidden('Only a technician, a chemometrician, an admin or an instrument token uploads spectra');
 	const fileName = storableFileName(input.fileName);
 	if (!CONTEXTS.includes(input.context)) throw invalid(`Unknown context "${input.context}"`, 'context');
@@ -286,6 +328,12 @@ async function ingest(actor: Actor, input: IngestInput, tx?: Transaction, checke
 		else throw e;
 	}
 
+	return { fileName, contextId, instrument, parsed, refused };
+}
+
+/** Stores a prepared file within `tx` when given, else in its own transaction. */
+async function storePrepared(actor: Actor, input: IngestInput, prepared: Prepared, tx?: Transaction): Promise<Done> {
+	const { fileName, contextId, instrument, parsed, refused } = prepared;
 	const run = async (t: Transaction): Promise<Done> => {
 		const sha256 = input.sha256 ?? sha256Hex(input.bytes);
 		const existing = await findDuplicate(t, input.context, contextId, sha256);
