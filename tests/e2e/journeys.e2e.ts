@@ -127,6 +127,31 @@ describe('second QA signature, with both QA users', () => {
 		await shoot(qa2, 'journeys-second-signature-done');
 		expect(errorsOf(qa2)).toEqual([]);
 		await qa2.context().close();
+
+		// Procurement's alert for the lot shows the disposition in force and where each finding stands now (item 7),
+		// with containers as C01 and times in the one zoned style (item 17).
+		const buyer = await as('buyer@demo.test');
+		await buyer.goto('/alerts?state=all&sort=opened:desc');
+		const listed = buyer.getByTestId('alerts-table').locator(`tr[data-lot="${lot.internalLot}"]`);
+		await expect(listed.getByTestId('alert-lot-now').textContent()).resolves.toBe('released');
+		const cells = await listed.locator('td').allTextContents();
+		expect(cells[5]).toMatch(/^C\d{2}(, C\d{2})*$/);
+		expect(cells[7]).toMatch(/^\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2} UTC$/);
+		await listed.getByRole('link', { name: lot.internalLot }).click();
+		// The click navigates in the client: wait for the alert's own heading before reading the page.
+		await buyer.getByRole('heading', { name: new RegExp(`^Alert #\\d+: .*lot ${lot.internalLot}$`) }).waitFor();
+		const now = buyer.getByTestId('alert-lot-now');
+		await expect(now.getAttribute('data-decision')).resolves.toBe('release');
+		const disposition = (await buyer.getByTestId('alert-disposition').textContent())!.replace(/\s+/g, ' ');
+		expect(disposition).toMatch(/^Disposition in force: .*released, signed by .+ and .+, \d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2} UTC\.$/);
+		const finding = buyer.getByTestId('alert-findings').locator('tbody tr').first();
+		await expect(finding.getAttribute('data-scan-state')).resolves.toBe('counts');
+		const container = Number(await finding.getAttribute('data-container'));
+		await expect(finding.locator('td').first().textContent()).resolves.toBe(`C${String(container).padStart(2, '0')}`);
+		await expect(finding.getByTestId('finding-now').textContent()).resolves.toContain('Container now:');
+		await shoot(buyer, 'journeys-alert-current');
+		expect(errorsOf(buyer)).toEqual([]);
+		await buyer.context().close();
 	}, 300_000);
 });
 

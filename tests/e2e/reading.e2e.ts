@@ -157,6 +157,77 @@ describe('validation messages in our own voice (item 18)', () => {
 	});
 });
 
+/** Elements that stick out past the right edge of a phone screen (for the failure message). */
+async function overflowing(page: Page): Promise<string[]> {
+	return page.evaluate(() => {
+		const width = window.innerWidth;
+		const out: string[] = [];
+		for (const el of Array.from(document.body.querySelectorAll('*'))) {
+			const r = el.getBoundingClientRect();
+			if (r.right > width + 1 && r.width > 0) {
+				// only the outermost offender: skip those inside a horizontally scrolling box
+				let scroller = el.parentElement;
+				let clipped = false;
+				while (scroller) {
+					const o = getComputedStyle(scroller).overflowX;
+					if (o === 'auto' || o === 'scroll' || o === 'hidden') clipped = true;
+					scroller = scroller.parentElement;
+				}
+				if (!clipped) out.push(`${el.tagName.toLowerCase()}.${String(el.className).slice(0, 60)} right=${Math.round(r.right)}`);
+			}
+		}
+		return out.slice(0, 8);
+	});
+}
+
+describe('phone width, 390 px (item 15)', () => {
+	const PHONE = { width: 390, height: 844 };
+	it('no main page scrolls sideways; the navigation folds into a menu; the lots list keeps its status', async () => {
+		const page = await as('admin@demo.test', PHONE);
+		const lotId = internalOf.get('lac-diluted');
+		const pages = ['/', '/lots', `/lots/${lotId}`, '/materials', '/materials/LAC-200', '/materials/LAC-200/versions/1', '/materials/LAC-200/versions/1/report', '/intake', '/suppliers', '/suppliers/PALMERA', '/instruments', '/alerts', '/audit', '/admin', '/admin/users', '/admin/instruments', '/lots/new'];
+		const wide: Record<string, { over: number; what: string[] }> = {};
+		for (const path of pages) {
+			await page.goto(path);
+			await page.waitForLoadState('networkidle');
+			const over = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+			if (over > 0) wide[path] = { over, what: await overflowing(page) };
+		}
+		expect(wide).toEqual({});
+
+		// The navigation is one "Menu" button until opened.
+		await page.goto('/lots');
+		const nav = page.getByRole('navigation', { name: 'Main' });
+		await expect(nav.isVisible()).resolves.toBe(false);
+		const headerHeight = await page.locator('header').evaluate((h) => h.getBoundingClientRect().height);
+		expect(headerHeight).toBeLessThan(90);
+		await page.getByTestId('menu-button').click();
+		await expect(nav.isVisible()).resolves.toBe(true);
+		await expect(page.getByTestId('menu-button').getAttribute('aria-expanded')).resolves.toBe('true');
+		await shoot(page, 'reading-phone-menu-open', { fullPage: false });
+		await nav.getByRole('link', { name: 'Materials' }).click();
+		await page.waitForURL(/\/materials$/);
+		await expect(nav.isVisible()).resolves.toBe(false);
+
+		// The lots list: the status of every row is on screen, not scrolled away.
+		await page.goto('/lots');
+		const status = page.getByTestId('lots-table').locator('tbody tr').first().locator('td').last();
+		// Not only on the screen: inside the table's own visible box, so no part of it is scrolled away.
+		const [statusRight, tableRight] = await status.evaluate((td) => [td.getBoundingClientRect().right, td.closest('table')!.getBoundingClientRect().right]);
+		expect(statusRight).toBeLessThanOrEqual(tableRight + 0.5);
+		expect(tableRight).toBeLessThanOrEqual(PHONE.width);
+		await expect(status.textContent()).resolves.toMatch(/\w/);
+		for (const [name, path] of [['lots', '/lots'], ['lot', `/lots/${lotId}`], ['version', '/materials/LAC-200/versions/1'], ['supplier', '/suppliers/PALMERA']]) {
+			await page.goto(path);
+			await page.waitForLoadState('networkidle');
+			const overflow = await shoot(page, `reading-${name}`);
+			expect(overflow, name).toEqual({ desktop: 0, 'tablet-landscape': 0, 'tablet-portrait': 0, phone: 0 });
+		}
+		expect(page.errors).toEqual([]);
+		await page.context().close();
+	});
+});
+
 describe('one way of writing things (item 17)', () => {
 	const ZONED = /\b\d{4}-\d{2}-\d{2} \d{2}:\d{2}:\d{2} UTC\b/;
 	it('one caution beside the verdicts; containers as C01; verdicts in words; times in one style with the zone', async () => {

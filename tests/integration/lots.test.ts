@@ -102,7 +102,7 @@ describe('scanning and verdicts', () => {
 		expect(bad.profile).toBe('diluted-starch');
 		let view = await lots.get(lot.id);
 		expect(view.identity).toBe('fails');
-		expect(view.outcome.summary).toMatch(/quarantine recommended.*container 2 suspect \(diluted-starch\)/);
+		expect(view.outcome.summary).toBe('Fails identity, quarantine recommended: C02 suspect (diluted-starch).');
 		// Neither an unusable nor a genuine rescan replaces the failing result (issue #11: only an approved invalidation does).
 		await scans.add(tech, lot.id, { bytes: corrupt(fx.axis, 6003), fileName: 'C02-broken.jdx', container: 2 });
 		view = await lots.get(lot.id);

@@ -64,7 +64,7 @@ describe('result policy', () => {
 			[retest.scanId, 'genuine', true, null]
 		]);
 		expect(c2.scans.map((s) => s.fileName)).toEqual([`C${91002}.jdx`, `C${91003}.jdx`]);
-		expect(view.outcome.summary).toMatch(/container 2 suspect \(diluted-starch\)/);
+		expect(view.outcome.summary).toBe('Fails identity, quarantine recommended: C02 suspect (diluted-starch).');
 		expect(view.failingHistory).toBe(true);
 	});
 

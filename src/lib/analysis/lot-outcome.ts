@@ -1,6 +1,6 @@
 // The outcome of a lot as the lot header states it: its identity in words, the failing containers with the scan that
 // decided each, the containers still waiting, and whether an investigation is called for. Pure: no database.
-import { verdictWord } from '../labels';
+import { containerLabel, verdictWord } from '../labels';
 import { AnalysisError } from './errors';
 import type { ContainerResultWord, ScanVerdictWord } from './container-result';
 
@@ -37,7 +37,7 @@ export function outcomeOf(status: LotStatusWord, identity: IdentityWord, sampled
 	let summary: string;
 	if (identity === 'meets') summary = `Meets identity: every sampled container is genuine${replicates > 1 ? ` in all ${replicates} replicates` : ''}.`;
 	else if (identity === 'fails')
-		summary = `Fails identity, quarantine recommended: ${failures.map((f) => `container ${f.container} ${verdictWord(f.verdict, f.profile)}`).join('; ')}.`;
+		summary = `Fails identity, quarantine recommended: ${failures.map((f) => `${containerLabel(f.container)} ${verdictWord(f.verdict, f.profile)}`).join('; ')}.`;
 	else if (identity === 'not-screened') summary = 'Not screened: the material has no approved model version, so the lot cannot go forward.';
 	else
 		summary = `Awaiting scans: ${waiting.length} of ${sampledCount} sampled container${sampledCount === 1 ? '' : 's'} still need${waiting.length === 1 ? 's' : ''} ${replicates > 1 ? `${replicates} genuine replicate scans or a failing one` : 'a valid scan'}.`;

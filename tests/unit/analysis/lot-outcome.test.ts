@@ -21,7 +21,7 @@ describe('lot outcome (illustration)', () => {
 		};
 		const o = outcomeOf('screened', 'fails', [genuine(1), c2]);
 		expect(o.failures).toEqual([{ container: 2, verdict: 'suspect', profile: 'diluted', ambiguous: false, reason: 'latest' }]);
-		expect(o.summary).toBe('Fails identity, quarantine recommended: container 2 suspect (diluted).');
+		expect(o.summary).toBe('Fails identity, quarantine recommended: C02 suspect (diluted).');
 		expect(o.investigation).toBe(false);
 		expect(o.investigationNote).toBeNull();
 	});

@@ -6,6 +6,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { renderCertificate, type CertificateContent } from '../../../src/lib/server/reports/certificate-pdf';
+import { containerLabel } from '../../../src/lib/labels';
 
 const dir = mkdtempSync(join(tmpdir(), 'lotgate-cert-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -75,8 +76,8 @@ describe('certificate distance plot', () => {
 
 	it('prints every on-scale container label once, none overlapping another', async () => {
 		const { boxes } = words(await renderCertificate(content(lot)), 'cluster');
-		const labels = ['5', ...cluster.map((c) => String(c.container))];
-		// The plot's labels are the bare numbers between its heading and its x-axis title.
+		const labels = ['C05', ...cluster.map((c) => containerLabel(c.container))];
+		// The plot's labels are the containers as the table names them (C05), between its heading and its x-axis title.
 		const top = boxes.find((b) => b.text === 'Distance')!.yMax;
 		const bottom = boxes.find((b) => b.text === 'score')!.yMin;
 		const found = labels.map((l) => boxes.filter((b) => b.text === l && b.yMin > top && b.yMax < bottom));

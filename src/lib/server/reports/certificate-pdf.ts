@@ -421,16 +421,16 @@ function drawPlot(
 	// Container labels: laid out without overlap (label-layout.ts); a label moved away from its point gets a leader line.
 	const labelSize = 6.5;
 	doc.font('body').fontSize(labelSize);
-	// The label box is the line box pdfkit sets the number in (ascender to descender), so boxes apart means glyphs apart.
+	// The label box is the line box pdfkit sets the label (C01, as in the table) in (ascender to descender), so boxes apart means glyphs apart.
 	const lineHeight = doc.currentLineHeight();
-	const requests = onScale.map((p, i) => ({ id: String(i), x: sx(p.x), y: sy(p.y), width: doc.widthOfString(String(p.container)), height: lineHeight }));
+	const requests = onScale.map((p, i) => ({ id: String(i), x: sx(p.x), y: sy(p.y), width: doc.widthOfString(containerLabel(p.container)), height: lineHeight }));
 	const layout = layoutLabels(requests, { left: box.x + 1, top: box.y + 1, right: box.x + box.w - 1, bottom: box.y + box.h - 1 }, { markerRadius: 3.6, gap: 1, avoid: training });
 	doc.save().lineWidth(0.4).strokeColor(MUTED);
 	for (const l of layout.placed) if (l.leader) doc.moveTo(l.leader.x1, l.leader.y1).lineTo(l.leader.x2, l.leader.y2).stroke();
 	doc.restore();
 	for (const p of onScale) verdictMark(doc, p.verdict, sx(p.x), sy(p.y), 3.4);
-	for (const l of layout.placed) doc.font('body').fontSize(labelSize).fillColor(INK).text(String(onScale[Number(l.id)].container), l.x, l.y, { lineBreak: false });
-	const unlabelled = layout.unplaced.map((id) => onScale[Number(id)].container);
+	for (const l of layout.placed) doc.font('body').fontSize(labelSize).fillColor(INK).text(containerLabel(onScale[Number(l.id)].container), l.x, l.y, { lineBreak: false });
+	const unlabelled = layout.unplaced.map((id) => containerLabel(onScale[Number(id)].container));
 
 	// Axis ticks at 0, c_crit and the axis end.
 	doc.font('body').fontSize(7).fillColor(MUTED);
@@ -445,7 +445,7 @@ function drawPlot(
 	doc.text('grey dots: training', legendX, box.y + 4, { width: width - (legendX - left), lineBreak: false });
 	doc.text('green line: c = c crit', legendX, box.y + 14, { width: width - (legendX - left), lineBreak: false });
 	doc.text('red dashes: outlier limit', legendX, box.y + 24, { width: width - (legendX - left), lineBreak: false });
-	doc.text('numbers: containers', legendX, box.y + 34, { width: width - (legendX - left), lineBreak: false });
+	doc.text('C01, C02 …: containers', legendX, box.y + 34, { width: width - (legendX - left), lineBreak: false });
 	doc.text('thin lines: label moved', legendX, box.y + 44, { width: width - (legendX - left), lineBreak: false });
 	doc.x = left;
 	doc.y = box.y + box.h + 28;
