@@ -17,7 +17,7 @@ const s = demoScenario({ seed });
 rmSync(join(root, 'library'), { recursive: true, force: true });
 rmSync(join(root, 'lots'), { recursive: true, force: true });
 mkdirSync(join(root, 'library'), { recursive: true });
-for (const f of s.libraryFiles) writeFileSync(join(root, 'library', f.name), f.bytes);
+for (const f of [...s.libraryFiles, ...s.treeFiles]) writeFileSync(join(root, 'library', f.name), f.bytes);
 for (const lot of s.lots) {
 	const dir = join(root, 'lots', lot.lotKey);
 	mkdirSync(dir, { recursive: true });
@@ -39,7 +39,8 @@ const summary = {
 		axis: { from: m.axis[0], to: m.axis[m.axis.length - 1], points: m.axis.length },
 		classes: m.classes.map(({ code, kind, description }) => ({ code, kind, description })),
 		challenges: m.challenges,
-		library: `library/${m.code}.csv`
+		library: `library/${m.code}.csv`,
+		...(s.treeFiles.some((f) => f.material === m.code) ? { treeLibrary: `library/${m.code}-tree.csv`, treeLabels: [...new Set(s.treeRows.filter((r) => r.material === m.code).map((r) => r.class))] } : {})
 	})),
 	lots: s.lots.map((l) => ({
 		lotKey: l.lotKey,
@@ -64,6 +65,9 @@ The database seed uses the same data in memory through \`demoScenario()\` in \`s
 
 - \`library/<material>.csv\`: reference library, one spectrum per row: id, class, supplier, supplier_lot,
   instrument, role (training / test / challenge), then one column per axis value.
+- \`library/LAC-200-tree.csv\`: the model-tree demo's extra lactose rows with label paths (\`genuine/site-b\`,
+  \`suspect/diluted/cellulose\`), drawn from their own random stream; the seed uploads them after version 1 is approved
+  and builds version 2 as a three-level tree (genuine › site-a / site-b, diluted › starch / cellulose, anhydrous-grade).
 - \`lots/<lotKey>/<lotKey>-C<nn>.jdx\`: one JCAMP-DX 5.01 file per container scan.
 - \`scenario.json\`: materials, classes, suppliers, instruments, and what each lot file really holds.
 
@@ -75,5 +79,5 @@ ${s.lots.map((l) => `| ${l.lotKey} | ${l.material} | ${l.supplier} | ${l.files.l
 `;
 writeFileSync(join(root, 'README.md'), readme);
 
-const files = s.libraryFiles.length + s.lots.reduce((n, l) => n + l.files.length, 0);
+const files = s.libraryFiles.length + s.treeFiles.length + s.lots.reduce((n, l) => n + l.files.length, 0);
 console.log(`fixtures/demo: ${files} files, ${s.library.length} library spectra, ${Math.round(performance.now() - started)} ms`);

@@ -5,6 +5,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 
 let rows: { lot_key: string; container: number; verdict: string }[] = [];
 let artefacts: { code: string; artefact: string | object }[] = [];
+let treeVersion: { version: number; state: string; params: { tree?: unknown }; artefact: string | object } | undefined;
 
 beforeAll(async () => {
 	const { sequelize } = await import('../../src/lib/server/db/index');
@@ -23,7 +24,10 @@ beforeAll(async () => {
 	artefacts = await q<{ code: string; artefact: string | object }>(
 		"SELECT m.code, v.artefact FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE v.state = 'approved' AND v.version = 1 AND m.code IN ('CIT-ANH', 'LAC-200', 'MCC-100') ORDER BY m.code"
 	);
-}, 300_000);
+	[treeVersion] = await q<NonNullable<typeof treeVersion>>(
+		"SELECT v.version, v.state, v.params, v.artefact FROM model_versions v JOIN materials m ON m.id = v.material_id WHERE m.code = 'LAC-200' AND v.params->'tree' IS NOT NULL ORDER BY v.version"
+	);
+}, 420_000);
 
 describe('the seeded demo', () => {
 	it('has a scan for every container of the seven demo lots', () => {
@@ -95,5 +99,44 @@ describe('the seeded demo', () => {
 		expect(t[0].evaluation.spectra).toBe(12);
 		expect(t[0].evaluation.lots).toHaveLength(3);
 		expect(view.approvedFor.map((a) => a.name)).not.toContain('NIR-DOCK-2');
+	});
+});
+
+// Issue 13 §5: after the lots above are screened with v1, the seed adds rows with label paths (a second approved
+// site, a second diluted sub-profile) and builds LAC-200 v2 as a three-level tree, left as a draft for QA.
+describe('the demo model tree (LAC-200 v2)', () => {
+	const load = async () => {
+		const { parseArtefact, screen, treeOf, treeDepth } = await import('../../src/lib/analysis');
+		const artefact = parseArtefact(typeof treeVersion!.artefact === 'string' ? treeVersion!.artefact : JSON.stringify(treeVersion!.artefact));
+		const run = (axis: Float64Array, values: Float64Array) => screen(artefact, { id: 'x', axis: Array.from(axis), values: Array.from(values), unit: 'nm' });
+		return { artefact, run, depth: treeDepth(treeOf(artefact)) };
+	};
+
+	it('is version 2, a draft built with an edited tree three levels deep; v1 stays the approved version', async () => {
+		expect(treeVersion?.version).toBe(2);
+		expect(treeVersion?.state).toBe('draft');
+		expect((await load()).depth).toBe(3);
+		expect(artefacts.find((a) => a.code === 'LAC-200')).toBeDefined();
+	});
+
+	it('names the sub-profile of each demo lot container by its truth; the talc container still reads unknown', async () => {
+		const { run } = await load();
+		const lots = (await import('../../src/lib/demo')).demoScenario().lots.filter((l) => l.material === 'LAC-200');
+		for (const lot of lots)
+			for (const f of lot.files.filter((x) => !x.corrupt)) {
+				const r = run(f.axis, f.values);
+				const where = `${lot.lotKey} C${f.container} (${f.truth})`;
+				if (f.truth === 'genuine') expect(r.path, where).toEqual(['genuine', 'site-a']);
+				else if (f.truth === 'diluted-starch') expect(r.path, where).toEqual(['diluted', 'starch']);
+				else if (f.truth === 'talc-cut') expect(r.verdict, where).toBe('unknown');
+				else expect(r.verdict, where).toBe('not-this-material');
+			}
+	});
+
+	it('held-out spectra of the second site and the second diluent reach their own leaf', async () => {
+		const { run } = await load();
+		const rows = (await import('../../src/lib/demo')).demoScenario().treeRows.filter((r) => r.role === 'test');
+		expect(rows.length).toBe(14);
+		for (const r of rows) expect(run(r.axis, r.values).path, r.id).toEqual(r.class === 'genuine/site-b' ? ['genuine', 'site-b'] : ['diluted', 'cellulose']);
 	});
 });

@@ -1,5 +1,5 @@
 // The invented demo scenario (pure and deterministic): for the database seed, fixtures and tests.
-export { demoScenario, COMPANY, DEFAULT_SEED, SUPPLIERS, INSTRUMENTS } from './scenario';
+export { demoScenario, COMPANY, DEFAULT_SEED, SUPPLIERS, INSTRUMENTS, TREE_ROWS } from './scenario';
 export type { DemoScenario, DemoMaterial, DemoClass, DemoSupplier, DemoInstrument, DemoLibraryRow, DemoLot, DemoLotFile, DemoFile } from './scenario';
 export { writeJcampAffn, writeJcampDifDup, sqz, dif, dup } from './jcamp-writer';
 export type { JcampSpectrum } from './jcamp-writer';

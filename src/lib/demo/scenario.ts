@@ -95,6 +95,12 @@ export interface DemoScenario {
 	library: DemoLibraryRow[];
 	/** One CSV matrix per material: id, class, supplier, supplier_lot, instrument, role, then the axis. */
 	libraryFiles: (DemoFile & { material: string })[];
+	/**
+	 * The model-tree demo's extra lactose rows (label paths: a second approved site, a second diluted sub-profile),
+	 * uploaded after version 1 is approved, so version 1 and the lots it screens are unchanged; see TREE_ROWS.
+	 */
+	treeRows: DemoLibraryRow[];
+	treeFiles: (DemoFile & { material: string })[];
 	lots: DemoLot[];
 }
 
@@ -119,7 +125,7 @@ function uniformAxis(from: number, to: number, step: number): Float64Array {
 }
 
 // What a sample is made of; each kind maps to a band recipe below.
-export type Kind = 'lactose' | 'lactose-site-b' | 'lactose-anhydrous' | 'lactose-starch' | 'lactose-talc' | 'lactose-talc-fine' | 'mcc' | 'powdered-cellulose' | 'citric-anhydrous' | 'citric-monohydrate';
+export type Kind = 'lactose' | 'lactose-site-b' | 'lactose-anhydrous' | 'lactose-starch' | 'lactose-cellulose' | 'lactose-talc' | 'lactose-talc-fine' | 'mcc' | 'powdered-cellulose' | 'citric-anhydrous' | 'citric-monohydrate';
 
 /** Physical state shared by a supplier lot (particle size, moisture, ...), varied a little per sample. */
 interface State {
@@ -192,6 +198,11 @@ export function nirPure(kind: Kind, axis: Float64Array, s: State, shift: number)
 		case 'lactose-starch':
 			lactose(0.8);
 			addBands(out, axis, NIR.starch, 0.2, shift, s.width);
+			break;
+		case 'lactose-cellulose':
+			// Diluted with about 20 % powdered cellulose: a second diluted sub-profile beside starch (the model-tree demo).
+			lactose(0.8);
+			addBands(out, axis, NIR.powderedCellulose, 0.2, shift, s.width);
 			break;
 		case 'lactose-talc':
 			lactose(0.75);
@@ -349,6 +360,36 @@ function fillerCut(axis: Float64Array, s: State, instrument: string, rng: Rng, q
 	return base;
 }
 
+/**
+ * The model-tree demo (issue 13 §5): extra LAC-200 rows with label paths, a second approved site of the genuine
+ * material and a second diluted sub-profile. The existing genuine and diluted-starch rows stay as they are (their
+ * spectra and labels): the demo's tree version places them at genuine › site-a and diluted › starch by its edited tree.
+ * Talc stays an unseen adulterant (the talc lot must keep reading unknown), so the second diluent is cellulose.
+ */
+export const TREE_ROWS: { label: string; code: string; kind: Kind; suppliers: string[]; description: string }[] = [
+	{ label: 'genuine/site-b', code: 'site-b', kind: 'lactose-site-b', suppliers: ['GRISEDALE', 'NORDVIK'], description: "Lactose monohydrate from the genuine material's second approved manufacturing site" },
+	{ label: 'suspect/diluted/cellulose', code: 'diluted-cellulose', kind: 'lactose-cellulose', suppliers: ['PALMERA', 'ZEPHYRA'], description: 'About 20 % powdered cellulose blended in' }
+];
+
+/** 5 supplier lots of 6 spectra per label; every fourth spectrum tests (as in the library): 23 training, 7 test. */
+function treeRowsOf(m: MaterialSpec, axis: Float64Array, unit: AxisUnit, quantum: number, branch: Rng): DemoLibraryRow[] {
+	const rows: DemoLibraryRow[] = [];
+	for (const t of TREE_ROWS) {
+		let k = 0;
+		for (let lot = 0; lot < 5; lot++) {
+			const supplier = t.suppliers[lot % t.suppliers.length];
+			const supplierLot = `${PREFIX[supplier]}-24T${TREE_ROWS.indexOf(t) + 1}${lot + 1}`;
+			const ls = lotState(branch);
+			for (let i = 0; i < 6; i++, k++) {
+				const instrument = m.instruments[k % m.instruments.length];
+				const values = spectrumOf(t.kind, axis, sampleState(ls, branch), instrument, branch, quantum);
+				rows.push({ id: `${m.code}-${t.code}-${String(k + 1).padStart(3, '0')}`, material: m.code, class: t.label, supplier, supplierLot, instrument, role: k % 4 === 3 ? 'test' : 'training', axis, unit, values });
+			}
+		}
+	}
+	return rows;
+}
+
 interface LotScanSpec {
 	lotKey: string;
 	material: string;
@@ -408,6 +449,8 @@ export function demoScenario(options: { seed?: number } = {}): DemoScenario {
 	const rng = createRng(seed);
 	// The held-out validation spectra come from their own stream, so adding them changed none of the other spectra.
 	const hold = createRng((seed ^ 0x5eed1e55) >>> 0);
+	// The model-tree rows too: adding them changed no earlier spectrum, lot or held-out row.
+	const branch = createRng((seed ^ 0x7ee5b4a7) >>> 0);
 	const encoder = new TextEncoder();
 	const lotCounter: Record<string, number> = {};
 	const nextLot = (supplier: string, year: number) => {
@@ -419,6 +462,8 @@ export function demoScenario(options: { seed?: number } = {}): DemoScenario {
 	const classes: DemoClass[] = [];
 	const library: DemoLibraryRow[] = [];
 	const libraryFiles: DemoScenario['libraryFiles'] = [];
+	const treeRows: DemoLibraryRow[] = [];
+	const treeFiles: DemoScenario['treeFiles'] = [];
 	const axisOf = (technique: 'NIR' | 'Raman') => (technique === 'NIR' ? uniformAxis(1100, 2500, 2) : uniformAxis(200, 1800, 2));
 
 	for (const m of MATERIALS) {
@@ -471,13 +516,19 @@ export function demoScenario(options: { seed?: number } = {}): DemoScenario {
 		materials.push(material);
 		library.push(...rows);
 		const cols = ['id', 'class', 'supplier', 'supplier_lot', 'instrument', 'role'];
-		const csv = writeCsvMatrix(
-			cols,
-			axis,
-			rows.map((r) => ({ meta: { id: r.id, class: r.class, supplier: r.supplier, supplier_lot: r.supplierLot, instrument: r.instrument, role: r.role }, values: r.values })),
-			m.technique === 'NIR' ? 6 : 5
-		);
-		libraryFiles.push({ material: m.code, name: `${m.code}.csv`, bytes: encoder.encode(csv) });
+		const csvOf = (list: DemoLibraryRow[]) =>
+			writeCsvMatrix(
+				cols,
+				axis,
+				list.map((r) => ({ meta: { id: r.id, class: r.class, supplier: r.supplier, supplier_lot: r.supplierLot, instrument: r.instrument, role: r.role }, values: r.values })),
+				m.technique === 'NIR' ? 6 : 5
+			);
+		libraryFiles.push({ material: m.code, name: `${m.code}.csv`, bytes: encoder.encode(csvOf(rows)) });
+		if (m.code === 'LAC-200') {
+			const extra = treeRowsOf(m, axis, unit, quantum, branch);
+			treeRows.push(...extra);
+			treeFiles.push({ material: m.code, name: `${m.code}-tree.csv`, bytes: encoder.encode(csvOf(extra)) });
+		}
 	}
 
 	const lots: DemoLot[] = [];
@@ -528,5 +579,5 @@ export function demoScenario(options: { seed?: number } = {}): DemoScenario {
 		lots.push({ lotKey: spec.lotKey, material: spec.material, supplier: spec.supplier, supplierLot, instrument: spec.instrument, description: spec.description, files });
 	}
 
-	return { company: COMPANY, seed, materials, classes, suppliers: SUPPLIERS.map((s) => ({ ...s })), instruments: INSTRUMENTS.map((i) => ({ ...i })), library, libraryFiles, lots };
+	return { company: COMPANY, seed, materials, classes, suppliers: SUPPLIERS.map((s) => ({ ...s })), instruments: INSTRUMENTS.map((i) => ({ ...i })), library, libraryFiles, treeRows, treeFiles, lots };
 }

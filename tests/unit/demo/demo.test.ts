@@ -139,6 +139,33 @@ describe('reference libraries', () => {
 	});
 });
 
+describe('model-tree rows (LAC-200 only, their own random stream)', () => {
+	test('two label paths, 5 supplier lots of 6 each, 23 training and 7 test per label, ids unique', () => {
+		expect(s.treeFiles.map((f) => [f.material, f.name])).toEqual([['LAC-200', 'LAC-200-tree.csv']]);
+		for (const label of ['genuine/site-b', 'suspect/diluted/cellulose']) {
+			const rows = s.treeRows.filter((r) => r.class === label);
+			expect(rows.length, label).toBe(30);
+			expect(rows.filter((r) => r.role === 'training').length, label).toBe(23);
+			expect(new Set(rows.map((r) => r.supplierLot)).size, label).toBe(5);
+		}
+		expect(s.treeRows).toHaveLength(60);
+		const ids = new Set(s.library.map((r) => r.id));
+		expect(s.treeRows.some((r) => ids.has(r.id))).toBe(false);
+		expect(new Set(s.treeRows.map((r) => r.id)).size).toBe(60);
+		// no tree row repeats a library spectrum (identical spectra would be refused as the same evidence)
+		const key = (v: Float64Array) => Array.from(v.subarray(0, 20)).join(',');
+		const seen = new Set(s.library.map((r) => key(r.values)));
+		expect(s.treeRows.some((r) => seen.has(key(r.values)))).toBe(false);
+	});
+
+	test('the file parses back to the rows, and fixtures/demo holds it', () => {
+		const [f] = s.treeFiles;
+		const r = parseSpectrumFile(f.bytes, f.name, { unit: 'nm' });
+		expect(r.spectra.map((x) => `${x.meta.id}:${x.meta.class}:${x.meta.role}`)).toEqual(s.treeRows.map((x) => `${x.id}:${x.class}:${x.role}`));
+		expect(createHash('sha256').update(readFileSync(new URL('../../../fixtures/demo/library/LAC-200-tree.csv', import.meta.url))).digest('hex')).toBe(createHash('sha256').update(f.bytes).digest('hex'));
+	});
+});
+
 describe('lot scan files', () => {
 	const lot = (k: string) => s.lots.find((l) => l.lotKey === k)!;
 

@@ -84,6 +84,8 @@ export async function seedDemo(log: (line: string) => void = console.log) {
 	await (await import('./lots-demo')).seedDemoLots(log);
 	await (await import('./disposition-demo')).seedDemoDispositions(demoPassword(), log);
 	await (await import('./monitoring-demo')).seedMonitoringDemo(log);
+	// after the lots are screened with LAC-200 v1, so the tree version changes none of their verdicts
+	await (await import('./tree-demo')).seedTreeDemo((await import('../../demo')).demoScenario().treeFiles, log);
 	// The release above writes an audit checkpoint in the background; the caller closes the database next.
 	await (await import('../audit-checkpoint')).checkpointsSettled();
 	log(`[seed] demo scenario "${DEMO_COMPANY}" is in place`);

@@ -4,7 +4,7 @@
 // - a header that names another lot or container than the upload target needs a confirmation, which is recorded.
 import { createHash } from 'node:crypto';
 import { QueryTypes, type Transaction } from 'sequelize';
-import { can } from '$lib/permissions';
+import { can } from '../../permissions';
 import { headerLabels, headerMismatches } from '../../spectra/labels';
 import { sequelize } from '../db';
 import { hasRole, type Actor } from './actor';
