@@ -2,8 +2,7 @@
 // open alerts. Set-based reads only. A container counts with its worst material verdict over every scan that is not
 // invalidated (the result policy of container-results.ts); unusable scans are laboratory or instrument problems and
 // never count against the supplier.
-import { QueryTypes } from 'sequelize';
-import { sequelize } from '../db';
+import { col, returning, select, z } from '../db/rows';
 import * as alerts from './alerts';
 import { VALID_VERDICTS } from './lots';
 import { ServiceError } from './errors';
@@ -32,11 +31,12 @@ export async function scorecard(supplierRef: string | number, options: { months?
 	const supplier = await suppliers.get(supplierRef);
 	const choice = options.months ?? 'all';
 	if (choice !== 'all' && !(Number.isInteger(choice) && choice >= 1 && choice <= MAX_MONTHS)) throw new ServiceError(400, 'bad-period', `The period is a whole number of months from 1 to ${MAX_MONTHS}, or all`, 'months');
-	const [b] = await sequelize().query<{ last: string; first: string | null }>(
+	const b = await returning(
+		z.object({ last: col.text, first: col.text.nullable() }),
 		`SELECT to_char(date_trunc('month', current_date), 'YYYY-MM-DD') AS last,
 		        to_char(date_trunc('month', min(received_at)), 'YYYY-MM-DD') AS first
 		   FROM lots WHERE supplier_id = :id`,
-		{ replacements: { id: supplier.id }, type: QueryTypes.SELECT }
+		{ replacements: { id: supplier.id } }
 	);
 	const index = (ymd: string) => Number(ymd.slice(0, 4)) * 12 + Number(ymd.slice(5, 7)) - 1;
 	const ymd = (i: number) => `${Math.floor(i / 12)}-${String((i % 12) + 1).padStart(2, '0')}-01`;
@@ -46,7 +46,8 @@ export async function scorecard(supplierRef: string | number, options: { months?
 	const w = { from: ymd(last - months + 1), to: b.last, months, first: b.first?.slice(0, 7) ?? null };
 	const window = { id: supplier.id, from: w.from, to: w.to };
 	const inPeriod = (alias = '') => `${alias}received_at >= CAST(:from AS date) AND ${alias}received_at < CAST(:to AS date) + interval '1 month'`;
-	const [totals] = await sequelize().query<{ received: string; meets: string; fails: string; not_screened: string; awaiting: string; released: string; quarantined: string; rejected: string; containers: string }>(
+	const totals = await returning(
+		z.object({ received: col.count, meets: col.count, fails: col.count, not_screened: col.count, awaiting: col.count, released: col.count, quarantined: col.count, rejected: col.count, containers: col.count }),
 		`SELECT count(*) AS received,
 		        count(*) FILTER (WHERE identity = 'meets') AS meets,
 		        count(*) FILTER (WHERE identity = 'fails') AS fails,
@@ -57,9 +58,10 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		        count(*) FILTER (WHERE status = 'rejected') AS rejected,
 		        coalesce(sum(containers), 0) AS containers
 		   FROM lots WHERE supplier_id = :id AND ${inPeriod()}`,
-		{ replacements: window, type: QueryTypes.SELECT }
+		{ replacements: window }
 	);
-	const verdicts = await sequelize().query<{ verdict: string; profile: string | null; material: string; n: string }>(
+	const verdicts = await select(
+		z.object({ verdict: col.text, profile: col.text.nullable(), material: col.text, n: col.count }),
 		`WITH counted AS (
 		   SELECT DISTINCT ON (sc.lot_id, sc.container) sc.lot_id, sc.verdict, sc.profile
 		     FROM scans sc JOIN lots l ON l.id = sc.lot_id
@@ -70,9 +72,10 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		 SELECT c.verdict, c.profile, m.code AS material, count(*) AS n
 		   FROM counted c JOIN lots l ON l.id = c.lot_id JOIN materials m ON m.id = l.material_id
 		  GROUP BY c.verdict, c.profile, m.code ORDER BY count(*) DESC, c.verdict, c.profile NULLS FIRST`,
-		{ replacements: { ...window, valid: VALID_VERDICTS }, type: QueryTypes.SELECT }
+		{ replacements: { ...window, valid: VALID_VERDICTS } }
 	);
-	const trendRows = await sequelize().query<{ month: string; received: string; meets: string; fails: string }>(
+	const trendRows = await select(
+		z.object({ month: col.text, received: col.count, meets: col.count, fails: col.count }),
 		`SELECT to_char(m.month, 'YYYY-MM') AS month,
 		        count(l.id) AS received,
 		        count(l.id) FILTER (WHERE l.identity = 'meets') AS meets,
@@ -80,40 +83,39 @@ export async function scorecard(supplierRef: string | number, options: { months?
 		   FROM generate_series(CAST(:from AS date), CAST(:to AS date), interval '1 month') AS m(month)
 		   LEFT JOIN lots l ON l.supplier_id = :id AND date_trunc('month', l.received_at) = m.month
 		  GROUP BY m.month ORDER BY m.month`,
-		{ replacements: window, type: QueryTypes.SELECT }
+		{ replacements: window }
 	);
 	const trend: MonthPoint[] = trendRows.map((r) => {
-		const meets = Number(r.meets);
-		const fails = Number(r.fails);
-		return { month: r.month, received: Number(r.received), meets, fails, passRate: meets + fails ? meets / (meets + fails) : null };
+		const { meets, fails } = r;
+		return { month: r.month, received: r.received, meets, fails, passRate: meets + fails ? meets / (meets + fails) : null };
 	});
-	const meets = Number(totals.meets);
-	const fails = Number(totals.fails);
+	const { meets, fails } = totals;
 	const openAlerts = (await alerts.list({ supplier: supplier.id, state: 'live', sort: 'severity:desc', pageSize: 50 })).rows;
-	const [alertCounts] = await sequelize().query<{ total: string; high: string }>(
+	const alertCounts = await returning(
+		z.object({ total: col.count, high: col.count }),
 		"SELECT count(*) AS total, count(*) FILTER (WHERE severity = 'high') AS high FROM alerts WHERE supplier_id = :id",
-		{ replacements: { id: supplier.id }, type: QueryTypes.SELECT }
+		{ replacements: { id: supplier.id } }
 	);
 	return {
 		supplier: suppliers.toPublic(supplier),
 		/** The months every figure below counts (alerts: as of now). */
-		period: { choice: String(choice), from: w.from.slice(0, 7), to: w.to.slice(0, 7), months: Number(w.months), firstLot: w.first },
+		period: { choice: String(choice), from: w.from.slice(0, 7), to: w.to.slice(0, 7), months: w.months, firstLot: w.first },
 		lots: {
-			received: Number(totals.received),
-			containers: Number(totals.containers),
+			received: totals.received,
+			containers: totals.containers,
 			meets,
 			fails,
-			notScreened: Number(totals.not_screened),
-			awaiting: Number(totals.awaiting),
-			released: Number(totals.released),
-			quarantined: Number(totals.quarantined),
-			rejected: Number(totals.rejected)
+			notScreened: totals.not_screened,
+			awaiting: totals.awaiting,
+			released: totals.released,
+			quarantined: totals.quarantined,
+			rejected: totals.rejected
 		},
 		/** Share of lots that completed screening and met identity. */
 		passRate: meets + fails ? meets / (meets + fails) : null,
-		verdicts: verdicts.map((v) => ({ verdict: v.verdict, profile: v.profile, material: v.material, count: Number(v.n) })),
+		verdicts: verdicts.map((v) => ({ verdict: v.verdict, profile: v.profile, material: v.material, count: v.n })),
 		trend,
-		alerts: { open: openAlerts, total: Number(alertCounts.total), high: Number(alertCounts.high) }
+		alerts: { open: openAlerts, total: alertCounts.total, high: alertCounts.high }
 	};
 }
 export type Scorecard = Awaited<ReturnType<typeof scorecard>>;

@@ -44,7 +44,7 @@ async function versionFacts(versionId: number, tx?: Transaction): Promise<Versio
 		{ replacements: { versionId }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	if (!v) throw notFound(`Model version ${versionId}`);
-	return { ...v, id: Number(v.id), material_id: Number(v.material_id) };
+	return v;
 }
 
 export interface HomeInstruments {
@@ -60,15 +60,15 @@ const homeCache = new Map<number, HomeInstruments>();
 export async function homeInstruments(versionId: number, tx?: Transaction): Promise<HomeInstruments> {
 	const hit = homeCache.get(versionId);
 	if (hit) return hit;
-	const rows = await sequelize().query<{ id: number | null; name: string | null; n: string }>(
+	const rows = await sequelize().query<{ id: number | null; name: string | null; n: number }>(
 		`SELECT e.instrument_id AS id, i.name, count(*) AS n FROM model_memberships mm
 		   JOIN library_entries e ON e.id = mm.library_entry_id LEFT JOIN instruments i ON i.id = e.instrument_id
 		  WHERE mm.model_version_id = :versionId AND mm.included GROUP BY e.instrument_id, i.name ORDER BY i.name NULLS LAST`,
 		{ replacements: { versionId }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	const home: HomeInstruments = {
-		instruments: rows.filter((r) => r.id != null).map((r) => ({ id: Number(r.id), name: r.name!, spectra: Number(r.n) })),
-		unstated: Number(rows.find((r) => r.id == null)?.n ?? 0)
+		instruments: rows.filter((r) => r.id != null).map((r) => ({ id: r.id!, name: r.name!, spectra: r.n })),
+		unstated: rows.find((r) => r.id == null)?.n ?? 0
 	};
 	if (rows.length) homeCache.set(versionId, home);
 	return home;
@@ -116,7 +116,7 @@ async function instrumentByRef(ref: number | string, tx?: Transaction) {
 		{ replacements: { ref: text }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	if (!i) throw invalid(`Instrument "${text}" is not registered`, 'instrument');
-	return { ...i, id: Number(i.id) };
+	return i;
 }
 
 /** c/c_crit of the genuine class on the version's own held-out genuine test spectra, else on its training spectra. */
@@ -181,10 +181,10 @@ export async function check(actor: Actor, versionId: number, input: z.input<type
 			action: 'model.transfer-checked',
 			entity: 'model_version',
 			entityId: v.id,
-			after: { transferId: Number(row.id), instrument: inst.name, state, spectra: evaluation.spectra, lots: evaluation.lots, genuine: evaluation.genuine, unmet: evaluation.unmet, ks: evaluation.comparison.ks },
+			after: { transferId: row.id, instrument: inst.name, state, spectra: evaluation.spectra, lots: evaluation.lots, genuine: evaluation.genuine, unmet: evaluation.unmet, ks: evaluation.comparison.ks },
 			reason: data.note
 		});
-		return { id: Number(row.id), state, evaluation: stored };
+		return { id: row.id, state, evaluation: stored };
 	});
 }
 
@@ -203,10 +203,10 @@ export async function decide(actor: Actor, transferId: number, approveIt: boolea
 			'SELECT * FROM model_transfers WHERE id = :id FOR UPDATE',
 			{ replacements: { id: transferId }, type: QueryTypes.SELECT, transaction: tx }
 		);
-		if (!t || (versionId != null && Number(t.model_version_id) !== versionId)) throw notFound(`Transfer check ${transferId}${versionId != null ? ' of this version' : ''}`);
+		if (!t || (versionId != null && t.model_version_id !== versionId)) throw notFound(`Transfer check ${transferId}${versionId != null ? ' of this version' : ''}`);
 		if (t.checked_by === actor.id) throw forbidden('You ran this transfer check: another QA user must decide it (nobody approves their own work)');
 		if (t.state !== 'proposed') throw conflict(`Transfer check ${transferId} is ${t.state}: only a proposed check that meets the criteria can be decided`);
-		const v = await versionFacts(Number(t.model_version_id), tx);
+		const v = await versionFacts(t.model_version_id, tx);
 		if (approveIt && v.state !== 'approved' && v.state !== 'draft') throw conflict(`${v.code} v${v.version} is ${v.state}: it screens nothing, so it is not transferred`);
 		const manifestation = await signatures.sign(tx, actor, {
 			password: data.password,
@@ -216,11 +216,11 @@ export async function decide(actor: Actor, transferId: number, approveIt: boolea
 			recordId: t.id,
 			recordHash: signatures.recordHash({
 				recordType: 'model_transfer',
-				id: Number(t.id),
+				id: t.id,
 				versionId: v.id,
 				version: `${v.code} v${v.version}`,
 				artefactSha256: v.artefact_sha256,
-				instrumentId: Number(t.instrument_id),
+				instrumentId: t.instrument_id,
 				entryIds: t.entry_ids,
 				evaluation: t.evaluation,
 				checkedBy: t.checked_by,
@@ -237,11 +237,11 @@ export async function decide(actor: Actor, transferId: number, approveIt: boolea
 			action: approveIt ? 'model.transfer-approved' : 'model.transfer-refused',
 			entity: 'model_version',
 			entityId: v.id,
-			before: { transferId: Number(t.id), state: 'proposed' },
-			after: { transferId: Number(t.id), state, signatureId: manifestation.id, recordHash: manifestation.recordHash },
+			before: { transferId: t.id, state: 'proposed' },
+			after: { transferId: t.id, state, signatureId: manifestation.id, recordHash: manifestation.recordHash },
 			reason: data.reason
 		});
-		return { id: Number(t.id), state, manifestation };
+		return { id: t.id, state, manifestation };
 	});
 }
 
@@ -288,13 +288,13 @@ export async function forVersion(versionId: number) {
 	const transfers: TransferView[] = [];
 	for (const r of rows) {
 		transfers.push({
-			id: Number(r.id),
+			id: r.id,
 			instrument: r.instrument,
-			instrumentId: Number(r.instrument_id),
+			instrumentId: r.instrument_id,
 			state: r.state,
 			note: r.note,
 			checkedBy: r.checker,
-			checkedById: Number(r.checked_by),
+			checkedById: r.checked_by,
 			checkedAt: new Date(r.checked_at).toISOString(),
 			decidedBy: r.decider,
 			decidedAt: r.decided_at ? new Date(r.decided_at).toISOString() : null,
@@ -302,7 +302,7 @@ export async function forVersion(versionId: number) {
 			evaluation: r.evaluation
 		});
 	}
-	const candidates = await sequelize().query<{ id: number; name: string; n: string }>(
+	const candidates = await sequelize().query<{ id: number; name: string; n: number }>(
 		`SELECT i.id, i.name, count(e.id) AS n FROM instruments i
 		   LEFT JOIN library_entries e ON e.instrument_id = i.id AND e.material_id = :materialId AND e.role = 'transfer'
 		  WHERE i.technique = :technique AND i.active GROUP BY i.id, i.name ORDER BY i.name`,
@@ -317,7 +317,7 @@ export async function forVersion(versionId: number) {
 		approvedFor: [...home.instruments.map((i) => ({ name: i.name, how: 'built on' as const })), ...transfers.filter((t) => t.state === 'approved').map((t) => ({ name: t.instrument, how: 'transfer' as const, transferId: t.id }))],
 		transfers,
 		/** Other instruments of the technique, with how many transfer spectra of the material each has. */
-		others: candidates.filter((c) => !homeIds.has(Number(c.id))).map((c) => ({ id: Number(c.id), name: c.name, transferSpectra: Number(c.n) }))
+		others: candidates.filter((c) => !homeIds.has(c.id)).map((c) => ({ id: c.id, name: c.name, transferSpectra: c.n }))
 	};
 }
 
