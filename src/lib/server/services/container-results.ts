@@ -70,20 +70,20 @@ const SELECT = `SELECT iv.*, pu.name AS proposed_by_name, du.name AS decided_by_
 
 function view(r: Row): InvalidationView {
 	return {
-		id: Number(r.id),
-		scanId: Number(r.scan_id),
-		lotId: Number(r.lot_id),
+		id: r.id,
+		scanId: r.scan_id,
+		lotId: r.lot_id,
 		cause: r.cause,
 		causeLabel: CAUSE_LABELS[r.cause],
 		description: r.description,
 		state: r.state,
 		proposedBy: r.proposed_by_name ?? `user ${r.proposed_by}`,
-		proposedById: Number(r.proposed_by),
+		proposedById: r.proposed_by,
 		proposedAt: new Date(r.proposed_at).toISOString(),
 		decidedBy: r.decided_by == null ? null : (r.decided_by_name ?? `user ${r.decided_by}`),
-		decidedById: r.decided_by == null ? null : Number(r.decided_by),
+		decidedById: r.decided_by,
 		decidedAt: r.decided_at ? new Date(r.decided_at).toISOString() : null,
-		signature: r.signature_id ? { id: Number(r.signature_id), meaning: r.meaning ?? '', reason: r.reason ?? '', signedAt: new Date(r.signed_at!).toISOString() } : null
+		signature: r.signature_id ? { id: r.signature_id, meaning: r.meaning ?? '', reason: r.reason ?? '', signedAt: new Date(r.signed_at!).toISOString() } : null
 	};
 }
 
@@ -120,7 +120,7 @@ export async function replicatesOf(lotId: number, tx?: Transaction): Promise<num
 		type: QueryTypes.SELECT,
 		transaction: tx
 	});
-	return Number(rows[0]?.replicates ?? 1);
+	return rows[0]?.replicates ?? 1;
 }
 
 export interface ScanLike {
@@ -154,7 +154,7 @@ export async function lotOutcome(tx: Transaction, lotId: number, sampled: number
 		transaction: tx
 	});
 	const results = resultsOf(
-		scans.map((s) => ({ ...s, id: Number(s.id), container: Number(s.container) })),
+		scans,
 		await forLot(lotId, tx),
 		sampled,
 		await replicatesOf(lotId, tx)
@@ -165,9 +165,9 @@ export async function lotOutcome(tx: Transaction, lotId: number, sampled: number
 
 /** Some container of the lot ever had a valid non-genuine scan (invalidated or not): a release then needs two signatures. */
 export async function hasFailingHistory(lotId: number, tx?: Transaction): Promise<boolean> {
-	const rows = await sequelize().query<{ n: string }>(
+	const rows = await sequelize().query<{ n: number }>(
 		"SELECT count(*) AS n FROM scans sc JOIN lots l ON l.id = sc.lot_id WHERE sc.lot_id = :lotId AND sc.container = ANY(l.sampled) AND sc.verdict IN ('suspect','unknown','not-this-material')",
 		{ replacements: { lotId }, type: QueryTypes.SELECT, transaction: tx }
 	);
-	return Number(rows[0]?.n ?? 0) > 0;
+	return (rows[0]?.n ?? 0) > 0;
 }

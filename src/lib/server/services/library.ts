@@ -141,7 +141,7 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 						transaction: tx
 					}
 				);
-				added.push({ id: Number(row.id), spectrumId: Number(s.id), label, role, fileName: file.name });
+				added.push({ id: row.id, spectrumId: s.id, label, role, fileName: file.name });
 			}
 		}
 		const summary = countBy(added, (a) => `${a.role}:${a.label}`);
@@ -154,7 +154,7 @@ export async function addFiles(actor: Actor, materialRef: number | string, files
 					transaction: tx
 				})
 			: [];
-		const gridOf = new Map(grids.map((g) => [Number(g.id), g]));
+		const gridOf = new Map(grids.map((g) => [g.id, g]));
 		let axis = (await materials.get(material.id)).axis;
 		if (!axis && added.length) {
 			const g = gridOf.get(added[0].spectrumId)!;
@@ -253,8 +253,8 @@ type RawRow = {
 };
 
 const toRow = (r: RawRow): LibraryRow => ({
-	id: Number(r.id),
-	spectrumId: Number(r.spectrum_id),
+	id: r.id,
+	spectrumId: r.spectrum_id,
 	label: r.label,
 	kind: r.kind,
 	role: r.role,
@@ -287,22 +287,22 @@ export async function list(materialId: number, query: LibraryQuery = {}) {
 	const filter = where.join(' AND ');
 	const [rows, count] = await Promise.all([
 		sequelize().query<RawRow>(`${ROW_SELECT} WHERE ${filter} ORDER BY ${order} LIMIT :limit OFFSET :offset`, { replacements, type: QueryTypes.SELECT }),
-		sequelize().query<{ n: string }>(
+		sequelize().query<{ n: number }>(
 			`SELECT count(*) AS n FROM library_entries e JOIN spectra sp ON sp.id = e.spectrum_id
 			   LEFT JOIN suppliers s ON s.id = e.supplier_id LEFT JOIN instruments i ON i.id = e.instrument_id WHERE ${filter}`,
 			{ replacements, type: QueryTypes.SELECT }
 		)
 	]);
-	return { rows: rows.map(toRow), total: Number(count[0].n), page, pageSize };
+	return { rows: rows.map(toRow), total: count[0].n, page, pageSize };
 }
 
 /** Counts per role and label, for the material page and the build form's size check. */
 export async function summary(materialId: number) {
-	const rows = await sequelize().query<{ role: LibraryRole; label: string; n: string }>(
+	const rows = await sequelize().query<{ role: LibraryRole; label: string; n: number }>(
 		'SELECT role, label, count(*) AS n FROM library_entries WHERE material_id = :materialId GROUP BY role, label ORDER BY role, label',
 		{ replacements: { materialId }, type: QueryTypes.SELECT }
 	);
-	return rows.map((r) => ({ role: r.role, label: r.label, count: Number(r.n) }));
+	return rows.map((r) => ({ role: r.role, label: r.label, count: r.n }));
 }
 
 export async function facets(materialId: number) {
@@ -350,8 +350,8 @@ export async function withSpectra(entryIds: number[], tx?: Transaction): Promise
 		{ replacements: { ids: entryIds }, type: QueryTypes.SELECT, transaction: tx }
 	);
 	const axes = new Map<number, number[]>();
-	for (const r of rows) if (r.axis_text != null) axes.set(Number(r.id), r.axis_text.split(',').map(Number));
-	return rows.map((r) => ({ ...toRow(r), unit: r.unit, axis: axes.get(Number(r.rep)) ?? axes.get(Number(r.id))!, values: r.values_text.split(',').map(Number) }));
+	for (const r of rows) if (r.axis_text != null) axes.set(r.id, r.axis_text.split(',').map(Number));
+	return rows.map((r) => ({ ...toRow(r), unit: r.unit, axis: axes.get(r.rep) ?? axes.get(r.id)!, values: r.values_text.split(',').map(Number) }));
 }
 
 export async function entriesOf(materialId: number, roles: LibraryRole[], tx?: Transaction) {

@@ -64,7 +64,7 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 				{ replacements: { ids: scanIds }, type: QueryTypes.SELECT, transaction: tx }
 			)
 		: [];
-	const byScan = new Map(results.map((r) => [Number(r.id), r]));
+	const byScan = new Map(results.map((r) => [r.id, r]));
 	const primary = record.modelVersions[record.modelVersions.length - 1] ?? null;
 	let genuineName: string | null = null;
 	let plot: CertificateContent['plot'] = null;
@@ -133,7 +133,7 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 				: {})
 		};
 	});
-	const superseded = d.supersedes_id ? await row(Number(d.supersedes_id), tx) : null;
+	const superseded = d.supersedes_id ? await row(d.supersedes_id, tx) : null;
 	const issuedAt = new Date(d.effective_at).toISOString();
 	return {
 		schema: 1,
@@ -163,11 +163,11 @@ export async function certificateContent(dispositionId: number, options: { timeZ
 		containers,
 		plot,
 		disposition: {
-			id: Number(d.id),
+			id: d.id,
 			decision: d.decision,
 			decisionText: DECISION_TEXT[d.decision],
 			recordHash: d.record_hash,
-			supersedes: superseded ? { id: Number(superseded.id), decision: DECISION_TEXT[superseded.decision], effectiveAtText: superseded.effective_at ? formatZoned(new Date(superseded.effective_at).toISOString(), options.timeZone) : null } : null,
+			supersedes: superseded ? { id: superseded.id, decision: DECISION_TEXT[superseded.decision], effectiveAtText: superseded.effective_at ? formatZoned(new Date(superseded.effective_at).toISOString(), options.timeZone) : null } : null,
 			twoPersonRule: d.needs_second,
 			...(d.needs_second && record.failingHistory && record.identity !== 'fails'
 				? { twoPersonReason: 'A container of the lot had a non-genuine result, since invalidated' }
@@ -208,13 +208,13 @@ export async function certificate(lotRef: number | string, dispositionId?: numbe
 	);
 	const r = rows[0];
 	if (!r) throw notFound(dispositionId ? `The certificate of disposition ${dispositionId}` : `A certificate for lot ${lotRef} (no disposition is in effect)`);
-	return { id: Number(r.id), dispositionId: Number(r.disposition_id), lotId: Number(r.lot_id), internalLot: r.internal_lot, pdf: r.pdf, sha256: r.sha256, content: r.content };
+	return { id: r.id, dispositionId: r.disposition_id, lotId: r.lot_id, internalLot: r.internal_lot, pdf: r.pdf, sha256: r.sha256, content: r.content };
 }
 
 /** Draws the certificate again from the database (content rebuilt from the signed data), for verification. */
 export async function regenerate(dispositionId: number): Promise<{ pdf: Buffer; sha256: string; matchesStored: boolean }> {
 	const d = await row(dispositionId);
-	const stored = await certificate(Number(d.lot_id), dispositionId);
+	const stored = await certificate(d.lot_id, dispositionId);
 	const content = await certificateContent(dispositionId, { timeZone: stored.content.timeZone, auditHead: stored.content.auditHead ?? null });
 	const pdf = await renderCertificate(content);
 	const sha256 = createHash('sha256').update(pdf).digest('hex');

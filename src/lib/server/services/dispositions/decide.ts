@@ -60,8 +60,7 @@ export async function dispose(actor: Actor, lotRef: number | string, input: Disp
 				'decision'
 			);
 		}
-		const [{ id: nextId }] = await sequelize().query<{ id: string }>("SELECT nextval('dispositions_id_seq') AS id", { type: QueryTypes.SELECT, transaction: tx });
-		const id = Number(nextId);
+		const [{ id }] = await sequelize().query<{ id: number }>("SELECT nextval('dispositions_id_seq') AS id", { type: QueryTypes.SELECT, transaction: tx });
 		const record = await buildRecord(lotId, id, data.decision, effective?.id ?? null, tx);
 		const hash = signatures.recordHash(record);
 		// The signature comes first: a wrong password must fail before this transaction writes any audit event.
@@ -134,7 +133,7 @@ async function currentEffective(lotId: number, tx: Transaction) {
 		type: QueryTypes.SELECT,
 		transaction: tx
 	});
-	return rows[0] ? { id: Number(rows[0].id), decision: rows[0].decision } : null;
+	return rows[0] ? { id: rows[0].id, decision: rows[0].decision } : null;
 }
 
 /** The second signature of a release despite failed identity: a different QA manager, with their own reason. */
@@ -144,7 +143,7 @@ export async function cosign(actor: Actor, dispositionId: number, input: z.input
 	return transaction(async (tx) => {
 		const d = await row(dispositionId, tx, true);
 		// Bound to the lot the signer is looking at: a pending release of another lot is never co-signed from this page.
-		if (expectedLotId !== undefined && Number(d.lot_id) !== expectedLotId) {
+		if (expectedLotId !== undefined && d.lot_id !== expectedLotId) {
 			throw new ServiceError(409, 'wrong-lot', 'This pending disposition belongs to another lot: open that lot to co-sign it. Nothing was signed.', 'dispositionId');
 		}
 		if (d.state !== 'awaiting-second-signature') {
@@ -154,8 +153,8 @@ export async function cosign(actor: Actor, dispositionId: number, input: z.input
 		if (first && first.signerId === actor.id) {
 			throw new ServiceError(403, 'same-signer', 'The second signature must come from a different QA manager than the first (two-person rule).', 'password');
 		}
-		const lot = await lots.lotRow(Number(d.lot_id), tx, true);
-		const record = await buildRecord(Number(d.lot_id), Number(d.id), d.decision, d.supersedes_id == null ? null : Number(d.supersedes_id), tx);
+		const lot = await lots.lotRow(d.lot_id, tx, true);
+		const record = await buildRecord(d.lot_id, d.id, d.decision, d.supersedes_id, tx);
 		if (signatures.recordHash(record) !== d.record_hash) {
 			throw conflict(`Lot ${lot.internal_lot} changed after the first signature (new scans or supplier data): the first signer must sign a new disposition`);
 		}
@@ -167,23 +166,23 @@ export async function cosign(actor: Actor, dispositionId: number, input: z.input
 			recordId: d.id,
 			recordHash: d.record_hash
 		});
-		const effective = await currentEffective(Number(d.lot_id), tx);
+		const effective = await currentEffective(d.lot_id, tx);
 		if (effective) await sequelize().query("UPDATE dispositions SET state = 'superseded' WHERE id = :id", { replacements: { id: effective.id }, transaction: tx });
 		await sequelize().query("UPDATE dispositions SET state = 'effective', second_signature_id = :sig, effective_at = :at WHERE id = :id", {
 			replacements: { id: d.id, sig: manifestation.id, at: manifestation.signedAt },
 			transaction: tx
 		});
-		if (effective) await markSupersededBy(tx, effective.id, Number(d.id));
+		if (effective) await markSupersededBy(tx, effective.id, d.id);
 		await audit.record(tx, actor, {
 			action: 'lot.dispositioned',
 			entity: 'lot',
 			entityId: d.lot_id,
 			before: { status: lot.status, disposition: effective?.id ?? null },
-			after: { disposition: Number(d.id), decision: d.decision, recordHash: d.record_hash, signatures: [d.signature_id, manifestation.id], twoPersonRule: true },
+			after: { disposition: d.id, decision: d.decision, recordHash: d.record_hash, signatures: [d.signature_id, manifestation.id], twoPersonRule: true },
 			reason: data.reason
 		});
-		await takeEffect(tx, actor, Number(d.id), lot.status, d.decision);
-		return { disposition: await toView(await row(Number(d.id), tx), tx), manifestation, message: `Second signature applied: lot ${lot.internal_lot} ${DECISION_TEXT[d.decision]}.` };
+		await takeEffect(tx, actor, d.id, lot.status, d.decision);
+		return { disposition: await toView(await row(d.id, tx), tx), manifestation, message: `Second signature applied: lot ${lot.internal_lot} ${DECISION_TEXT[d.decision]}.` };
 	});
 }
 
@@ -220,7 +219,7 @@ async function takeEffect(tx: Transaction, actor: Actor, dispositionId: number, 
 		action: 'certificate.generated',
 		entity: 'lot',
 		entityId: d.lot_id,
-		after: { certificate: Number(cert.id), disposition: dispositionId, sha256, documentHash: certificateDocumentHash(content) }
+		after: { certificate: cert.id, disposition: dispositionId, sha256, documentHash: certificateDocumentHash(content) }
 	});
 	const [material] = await sequelize().query<{ recipients: string[] }>('SELECT m.recipients FROM lots l JOIN materials m ON m.id = l.material_id WHERE l.id = :lotId', {
 		replacements: { lotId: d.lot_id },
@@ -242,8 +241,8 @@ async function takeEffect(tx: Transaction, actor: Actor, dispositionId: number, 
 			'',
 			content.caution
 		].join('\n'),
-		attachments: [{ filename: fileName, contentType: 'application/pdf', certificateId: Number(cert.id) }],
-		lotId: Number(d.lot_id),
+		attachments: [{ filename: fileName, contentType: 'application/pdf', certificateId: cert.id }],
+		lotId: d.lot_id,
 		dispositionId
 	});
 	await audit.record(tx, actor, { action: 'mail.queued', entity: 'lot', entityId: d.lot_id, after: { outbox: outboxId, kind: 'certificate', recipients: material?.recipients ?? [] } });

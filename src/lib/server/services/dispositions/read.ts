@@ -56,19 +56,19 @@ export async function toView(r: DispositionRow, tx?: Transaction): Promise<Dispo
 		transaction: tx
 	});
 	return {
-		id: Number(r.id),
-		lotId: Number(r.lot_id),
+		id: r.id,
+		lotId: r.lot_id,
 		decision: r.decision,
 		decisionText: DECISION_TEXT[r.decision],
 		state: r.state,
 		needsSecond: r.needs_second,
 		recordHash: r.record_hash,
 		signatures: sigs,
-		supersedesId: r.supersedes_id == null ? null : Number(r.supersedes_id),
-		supersededBy: r.superseded_by == null ? null : Number(r.superseded_by),
+		supersedesId: r.supersedes_id,
+		supersededBy: r.superseded_by,
 		createdAt: new Date(r.created_at).toISOString(),
 		effectiveAt: r.effective_at ? new Date(r.effective_at).toISOString() : null,
-		certificate: certs[0] ? { id: Number(certs[0].id), sha256: certs[0].sha256, size: Number(certs[0].size) } : null
+		certificate: certs[0] ? { id: certs[0].id, sha256: certs[0].sha256, size: certs[0].size } : null
 	};
 }
 
