@@ -26,7 +26,7 @@ export async function candidates(materialId: number, load: Loader): Promise<Fami
 	const out: FamilyCandidate[] = [];
 	for (const r of rows) {
 		try {
-			const m = await load(Number(r.id));
+			const m = await load(r.id);
 			if (m) out.push({ material: r.code, prepared: m.prep });
 		} catch {
 			// a refused artefact (integrity) cannot be evidence for another material's scan; that material is skipped

@@ -109,7 +109,7 @@ export async function propose(actor: Actor, lotRef: number | string, scanRef: nu
 			`INSERT INTO scan_invalidations (scan_id, lot_id, cause, description, proposed_by) VALUES (:scanId, :lotId, :cause, :description, :by) RETURNING id`,
 			{ replacements: { scanId, lotId, cause: data.cause, description: data.description, by: actor.id }, type: QueryTypes.SELECT, transaction: tx }
 		);
-		const id = Number(row.id);
+		const id = row.id;
 		await audit.record(tx, actor, {
 			action: 'lot.scan-invalidation-proposed',
 			entity: 'lot',
@@ -157,7 +157,7 @@ export async function decide(actor: Actor, lotRef: number | string, scanRef: num
 			transaction: tx
 		});
 		if (!rows[0]) throw notFound(`A proposed invalidation of scan ${scanId}`);
-		const proposal = (await byId(Number(rows[0].id), tx))!;
+		const proposal = (await byId(rows[0].id, tx))!;
 		if (proposal.proposedById === actor.id) {
 			throw new ServiceError(403, 'own-proposal', 'You proposed this invalidation: a different QA manager must decide it (separation of duties).', 'password');
 		}
@@ -195,7 +195,7 @@ export async function decide(actor: Actor, lotRef: number | string, scanRef: num
 				await audit.record(tx, actor, {
 					action: 'alert.finding-invalidated',
 					entity: 'alert',
-					entityId: Number(a.id),
+					entityId: a.id,
 					after: { scanId, container: scan.container, invalidation: proposal.id, cause: proposal.cause, approvedBy: manifestation.signerName },
 					reason: data.reason
 				});
@@ -220,6 +220,6 @@ export async function queueItems(actor: Actor) {
 		{ type: QueryTypes.SELECT }
 	);
 	return rows
-		.filter((r) => Number(r.proposed_by) !== actor.id)
+		.filter((r) => r.proposed_by !== actor.id)
 		.map((r) => ({ href: `/lots/${r.internal_lot}#scan-${r.scan_id}`, label: `${r.internal_lot} · container ${containerLabel(r.container)}: invalidation to decide`, detail: `proposed by ${r.name} (${CAUSE_LABELS[r.cause]})` }));
 }

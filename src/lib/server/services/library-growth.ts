@@ -40,7 +40,7 @@ interface CandidateScan {
 async function approvedOf(materialId: number) {
 	const [v] = await sequelize().query<{ id: number }>("SELECT id FROM model_versions WHERE material_id = :m AND state = 'approved'", { replacements: { m: materialId }, type: QueryTypes.SELECT });
 	if (!v) throw new ServiceError(409, 'no-approved-model', 'The material has no approved version to grow from');
-	return row(Number(v.id));
+	return row(v.id);
 }
 
 /** Genuine, counted scans of released lots of the material whose spectrum is not yet in its library. */
@@ -74,7 +74,7 @@ export async function candidates(materialRef: number | string) {
 	for (const s of scans) {
 		const r = screen(prepared, { id: String(s.scan_id), axis: s.axis.map(nan), values: s.intensities.map(nan), unit: s.unit });
 		const st = r.classes[genuine];
-		const lot = byLot.get(Number(s.lot_id)) ?? { lotId: Number(s.lot_id), internalLot: s.internal_lot, supplierLot: s.supplier_lot, supplier: s.supplier, receivedAt: s.received_at, instruments: new Set<string>(), ratios: [], scans: 0 };
+		const lot = byLot.get(s.lot_id) ?? { lotId: s.lot_id, internalLot: s.internal_lot, supplierLot: s.supplier_lot, supplier: s.supplier, receivedAt: s.received_at, instruments: new Set<string>(), ratios: [], scans: 0 };
 		lot.scans++;
 		if (s.instrument) lot.instruments.add(s.instrument);
 		if (st && Number.isFinite(st.c)) lot.ratios.push(st.c / cCrit);
@@ -117,7 +117,7 @@ export async function propose(actor: Actor, materialRef: number | string, input:
 	const parent = await approvedOf(material.id);
 	const wanted = [...new Set(data.lotIds)];
 	const scans = await candidateScans(material.id, wanted);
-	const found = new Set(scans.map((s) => Number(s.lot_id)));
+	const found = new Set(scans.map((s) => s.lot_id));
 	const missing = wanted.filter((id) => !found.has(id));
 	if (missing.length) throw invalid(`Lot${missing.length > 1 ? 's' : ''} ${missing.join(', ')} ha${missing.length > 1 ? 've' : 's'} no candidate scans: only released lots of ${material.code} with genuine scans not yet in the library can be added`, 'lotIds');
 	const classes = await materials.classes(material.id);
@@ -128,7 +128,7 @@ export async function propose(actor: Actor, materialRef: number | string, input:
 		const s = await drift.forLot(id);
 		if (s) signals.set(id, `rule ${s.rule}: ${s.message}`);
 	}
-	const lotNames = [...new Map(scans.map((s) => [Number(s.lot_id), s.internal_lot])).values()];
+	const lotNames = [...new Map(scans.map((s) => [s.lot_id, s.internal_lot])).values()];
 	const note = `library growth: ${scans.length} genuine scans of ${lotNames.join(', ')} added to ${genuineClass.name}`;
 	const created = await transaction(async (tx) => {
 		const current = await sequelize().query<{ state: string }>('SELECT state FROM model_versions WHERE id = :id FOR UPDATE', { replacements: { id: parent.id }, type: QueryTypes.SELECT, transaction: tx });
@@ -144,7 +144,7 @@ export async function propose(actor: Actor, materialRef: number | string, input:
 					transaction: tx
 				}
 			);
-			added.push(Number(e.id));
+			added.push(e.id);
 		}
 		const carried = (await memberships(parent.id, tx)).map((m) => ({ entryId: m.entryId, included: m.included, category: m.category, reason: m.reason, inclusionReason: m.inclusionReason }));
 		const planned = [...carried, ...added.map((entryId) => ({ entryId, included: true, inclusionReason: data.reason }))];
@@ -155,7 +155,7 @@ export async function propose(actor: Actor, materialRef: number | string, input:
 			action: 'library.growth-proposed',
 			entity: 'material',
 			entityId: material.id,
-			after: { draftVersion: v.version, draftId: v.id, parentVersion: parent.version, lots: lotNames, scans: scans.map((s) => Number(s.scan_id)), entries: added, driftFlagged: Object.fromEntries(signals) },
+			after: { draftVersion: v.version, draftId: v.id, parentVersion: parent.version, lots: lotNames, scans: scans.map((s) => s.scan_id), entries: added, driftFlagged: Object.fromEntries(signals) },
 			reason: data.reason
 		});
 		return v;

@@ -102,7 +102,7 @@ export async function evidenceFor(lot: lots.LotView) {
 				type: QueryTypes.SELECT
 			})
 		: [];
-	const bySpectrum = new Map(rows.map((r) => [Number(r.id), r]));
+	const bySpectrum = new Map(rows.map((r) => [r.id, r]));
 	const spectra: { id: string; values: number[] }[] = [];
 	for (const s of lot.scans) {
 		const r = bySpectrum.get(s.spectrumId);

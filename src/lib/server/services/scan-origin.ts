@@ -59,7 +59,7 @@ export async function storedElsewhere(tx: Transaction | undefined, sha256: strin
 	);
 	return rows.map((r) => {
 		const when = new Date(r.created_at).toISOString().slice(0, 10);
-		if (r.context === 'lot') return `lot ${r.internal_lot ?? '?'}${r.container != null ? `, container ${pad(Number(r.container))}` : ''} (${r.scan_id != null ? `scan #${r.scan_id}, ` : ''}file “${r.file_name}”, ${when})`;
+		if (r.context === 'lot') return `lot ${r.internal_lot ?? '?'}${r.container != null ? `, container ${pad(r.container)}` : ''} (${r.scan_id != null ? `scan #${r.scan_id}, ` : ''}file “${r.file_name}”, ${when})`;
 		if (r.context === 'library') return `the reference library of ${r.material_code ?? 'a material'} (spectrum #${r.id}, file “${r.file_name}”, ${when})`;
 		return `the intake (spectrum #${r.id}, file “${r.file_name}”, ${when})`;
 	});

@@ -78,7 +78,7 @@ export async function sign(tx: Transaction, actor: Actor, input: SignInput): Pro
 		}
 	);
 	const manifestation: Manifestation = {
-		id: Number(row.id),
+		id: row.id,
 		signerId: signer.id,
 		signerName: signer.name,
 		signedAt: signedAt.toISOString(),
@@ -111,7 +111,7 @@ interface SignatureRow {
 }
 
 const toManifestation = (r: SignatureRow): Manifestation => ({
-	id: Number(r.id),
+	id: r.id,
 	signerId: r.signer_id,
 	signerName: r.signer_name,
 	signedAt: new Date(r.signed_at).toISOString(),

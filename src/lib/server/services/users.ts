@@ -134,11 +134,11 @@ async function requestRoleChange(tx: Transaction, actor: Actor, user: User, role
 		entity: 'user',
 		entityId: user.id,
 		before: { roles: user.roles },
-		after: { roles: rolesAfter, requestId: Number(row.id) },
+		after: { roles: rolesAfter, requestId: row.id },
 		reason
 	});
 	return {
-		id: Number(row.id),
+		id: row.id,
 		userId: user.id,
 		rolesBefore: user.roles,
 		rolesAfter,
@@ -163,7 +163,7 @@ interface RoleChangeRow {
 }
 
 const toRoleChange = (r: RoleChangeRow): RoleChangeRequest => ({
-	id: Number(r.id),
+	id: r.id,
 	userId: r.user_id,
 	rolesBefore: r.roles_before,
 	rolesAfter: r.roles_after,

@@ -5,7 +5,7 @@ import { awaitingSecond } from './read';
 /** QA home queue: releases waiting for a second signature; the first signer sees theirs as waiting for someone else. */
 export async function queueItems(actor: Actor) {
 	return (await awaitingSecond()).map((p) => {
-		const mine = Number(p.signer_id) === actor.id;
+		const mine = p.signer_id === actor.id;
 		return {
 			key: `disposition:${p.id}`,
 			internalLot: p.internal_lot,

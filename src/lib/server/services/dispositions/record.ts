@@ -111,6 +111,6 @@ export async function buildRecord(lotId: number, dispositionId: number, decision
 					: { container, scanId: null, verdict: 'awaiting-scan', profile: null, ambiguous: false, fileName: null, sha256: null, modelVersionId: null, ...extra };
 			}),
 		failingHistory: lot.failingHistory,
-		modelVersions: versions.map((v) => ({ id: Number(v.id), label: `${lot.material.code} v${v.version}`, artefactSha256: v.artefact_sha256 }))
+		modelVersions: versions.map((v) => ({ id: v.id, label: `${lot.material.code} v${v.version}`, artefactSha256: v.artefact_sha256 }))
 	};
 }

@@ -89,7 +89,7 @@ export async function create(actor: Actor, input: LotInput, reason?: string) {
 				transaction: tx
 			}
 		);
-		const id = Number(row.id);
+		const id = row.id;
 		await audit.record(tx, actor, {
 			action: 'lot.received',
 			entity: 'lot',
