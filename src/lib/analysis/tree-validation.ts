@@ -116,7 +116,7 @@ export interface ClassifierComparison {
 }
 
 export interface DiscriminantComparison {
-	/** The first-level nodes, the classifiers' classes. */
+	/** The first-level nodes: the labels the classifiers choose among. */
 	level1: string[];
 	genuine: string | null;
 	recipe: string;

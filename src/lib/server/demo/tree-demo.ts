@@ -40,7 +40,8 @@ export async function seedTreeDemo(files: (DemoFile & { material: string })[], l
 		});
 		if (Number(built[0].n) > 0) continue;
 		// "diluted" is the level-1 profile the new sub-profile rows name (suspect/diluted/cellulose)
-		if (!(await materials.classes(material.id)).some((c) => c.name === 'diluted'))
+		const [has] = await sequelize().query("SELECT 1 FROM material_classes WHERE material_id = :id AND name = 'diluted'", { replacements: { id: material.id }, type: QueryTypes.SELECT });
+		if (!has)
 			await materials.addClass(chemist, material.id, { name: 'diluted', kind: 'suspect', description: 'Diluted with a filler; the tree names which (starch or cellulose)' }, 'demo seed: model tree');
 		const [{ n }] = await sequelize().query<{ n: string }>("SELECT count(*) AS n FROM library_entries WHERE material_id = :id AND label LIKE '%/%'", {
 			replacements: { id: material.id },
