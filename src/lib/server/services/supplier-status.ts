@@ -5,6 +5,7 @@ import { QueryTypes } from 'sequelize';
 import { z } from 'zod';
 import { proseText } from '../../validation/text';
 import { sequelize, transaction } from '../db';
+import { col, selectOne } from '../db/rows';
 import type { SupplierStatus } from '../db/models';
 import { hasRole, type Actor } from './actor';
 import * as audit from './audit';
@@ -34,28 +35,45 @@ export interface StatusRequestView {
 	decisionNote: string | null;
 }
 
+const Status = z.enum(['qualified', 'on-watch', 'blocked']);
+const RequestRow = z.object({
+	id: col.id,
+	supplier_id: col.id,
+	from_status: Status,
+	to_status: Status,
+	reason: col.text,
+	state: z.enum(['pending', 'approved', 'declined', 'withdrawn']),
+	requested_by: col.id,
+	requested_by_name: col.text,
+	requested_at: col.date,
+	signature_id: col.id.nullable(),
+	decided_by_name: col.text.nullable(),
+	decided_at: col.date.nullable(),
+	decision_note: col.text.nullable()
+});
+
 async function view(id: number): Promise<StatusRequestView> {
-	const rows = await sequelize().query<Record<string, unknown>>(
+	const r = await selectOne(
+		RequestRow,
 		`SELECT r.*, u.name AS requested_by_name, d.name AS decided_by_name FROM supplier_status_requests r
 		   JOIN users u ON u.id = r.requested_by LEFT JOIN users d ON d.id = r.decided_by WHERE r.id = :id`,
-		{ replacements: { id }, type: QueryTypes.SELECT }
+		{ replacements: { id } }
 	);
-	const r = rows[0];
 	if (!r) throw notFound(`Status request ${id}`);
 	return {
-		id: Number(r.id),
-		supplierId: Number(r.supplier_id),
-		fromStatus: r.from_status as SupplierStatus,
-		toStatus: r.to_status as SupplierStatus,
-		reason: r.reason as string,
-		state: r.state as StatusRequestView['state'],
-		requestedBy: r.requested_by_name as string,
-		requestedById: Number(r.requested_by),
-		requestedAt: new Date(r.requested_at as Date).toISOString(),
-		signature: r.signature_id ? await signatures.get(Number(r.signature_id)) : null,
-		decidedBy: (r.decided_by_name as string | null) ?? null,
-		decidedAt: r.decided_at ? new Date(r.decided_at as Date).toISOString() : null,
-		decisionNote: (r.decision_note as string | null) ?? null
+		id: r.id,
+		supplierId: r.supplier_id,
+		fromStatus: r.from_status,
+		toStatus: r.to_status,
+		reason: r.reason,
+		state: r.state,
+		requestedBy: r.requested_by_name,
+		requestedById: r.requested_by,
+		requestedAt: r.requested_at.toISOString(),
+		signature: r.signature_id ? await signatures.get(r.signature_id) : null,
+		decidedBy: r.decided_by_name,
+		decidedAt: r.decided_at ? r.decided_at.toISOString() : null,
+		decisionNote: r.decision_note
 	};
 }
 
@@ -64,7 +82,7 @@ export async function forSupplier(supplierId: number, limit = 20): Promise<Statu
 		replacements: { supplierId, limit },
 		type: QueryTypes.SELECT
 	});
-	return Promise.all(rows.map((r) => view(Number(r.id))));
+	return Promise.all(rows.map((r) => view(r.id)));
 }
 
 /** Procurement asks for a status change; nothing changes until QA co-signs. */
@@ -94,10 +112,10 @@ export async function request(actor: Actor, supplierRef: string | number, input:
 			entity: 'supplier',
 			entityId: supplier.id,
 			before: { status: current.status },
-			after: { request: Number(row.id), status: data.status },
+			after: { request: row.id, status: data.status },
 			reason: data.reason
 		});
-		return Number(row.id);
+		return row.id;
 	});
 	return view(id);
 }
@@ -121,7 +139,7 @@ export async function approve(actor: Actor, requestId: number, input: z.input<ty
 			transaction: tx
 		});
 		if (current.status !== r.from_status) throw conflict(`${current.code} is now ${current.status}, no longer ${r.from_status}: procurement must request again`);
-		const signed = { kind: 'supplier-status-change', request: Number(r.id), supplier: current.code, from: r.from_status, to: r.to_status, reason: r.reason };
+		const signed = { kind: 'supplier-status-change', request: r.id, supplier: current.code, from: r.from_status, to: r.to_status, reason: r.reason };
 		// Signature first: a wrong password must fail before this transaction writes an audit event.
 		const manifestation = await signatures.sign(tx, actor, { ...fields, recordType: 'supplier_status_request', recordId: r.id, recordHash: signatures.recordHash(signed) });
 		await sequelize().query("UPDATE supplier_status_requests SET state = 'approved', signature_id = :sig, decided_by = :by, decided_at = now(), decision_note = :note WHERE id = :id", {
@@ -134,7 +152,7 @@ export async function approve(actor: Actor, requestId: number, input: z.input<ty
 			entity: 'supplier',
 			entityId: r.supplier_id,
 			before: { status: r.from_status },
-			after: { status: r.to_status, request: Number(r.id), requestedBy: r.requested_by, coSignature: manifestation.id },
+			after: { status: r.to_status, request: r.id, requestedBy: r.requested_by, coSignature: manifestation.id },
 			reason: `${r.reason} · QA: ${fields.reason}`
 		});
 	});
