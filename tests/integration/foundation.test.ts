@@ -6,10 +6,11 @@ import * as audit from '../../src/lib/server/services/audit';
 import * as suppliers from '../../src/lib/server/services/suppliers';
 import * as users from '../../src/lib/server/services/users';
 import { makeUser, rootActor, unique } from '../support/factories';
+import { testAction } from '../support/audit-action';
 
 describe('audit trail', () => {
 	it('chains each event to the previous one and verifies', async () => {
-		await transaction((tx) => audit.record(tx, rootActor, { action: 'test.event', entity: 'test', entityId: 1, after: { n: 1.5, nested: { b: 2, a: [1, 'x'] } }, reason: 'chain check' }));
+		await transaction((tx) => audit.record(tx, rootActor, { action: testAction('test.event'), entity: 'test', entityId: 1, after: { n: 1.5, nested: { b: 2, a: [1, 'x'] } }, reason: 'chain check' }));
 		const report = await audit.verifyChain();
 		expect(report.ok).toBe(true);
 		expect(report.checked).toBeGreaterThan(0);
@@ -30,7 +31,7 @@ describe('audit trail', () => {
 
 	it('names the first tampered row, and verifies again once it is restored', async () => {
 		const action = `test.tamper-target-${Date.now()}`;
-		await transaction((tx) => audit.record(tx, rootActor, { action, entity: 'test', reason: 'original' }));
+		await transaction((tx) => audit.record(tx, rootActor, { action: testAction(action), entity: 'test', reason: 'original' }));
 		const [{ id }] = await sequelize().query<{ id: number }>('SELECT id::int AS id FROM audit_events WHERE action = :action', { replacements: { action }, type: QueryTypes.SELECT });
 		// Tampering needs the trigger off: only the database owner can do this, and the chain still exposes it.
 		const owner = new pg.Client({ connectionString: inject('ownerDatabaseUrl') });
@@ -52,8 +53,8 @@ describe('audit trail', () => {
 	it('appends a transaction\'s events at its end, in call order, chained', async () => {
 		const tag = `order-${Date.now()}`;
 		await transaction(async (tx) => {
-			await audit.record(tx, rootActor, { action: `${tag}.first`, entity: 'test' });
-			await audit.record(tx, rootActor, { action: `${tag}.second`, entity: 'test' });
+			await audit.record(tx, rootActor, { action: testAction(`${tag}.first`), entity: 'test' });
+			await audit.record(tx, rootActor, { action: testAction(`${tag}.second`), entity: 'test' });
 		});
 		const rows = await sequelize().query<{ action: string; prev_hash: string; hash: string }>(
 			'SELECT action, prev_hash, hash FROM audit_events WHERE action LIKE :tag ORDER BY id',

@@ -11,6 +11,7 @@ import { sequelize, transaction } from '../../src/lib/server/db';
 import * as audit from '../../src/lib/server/services/audit';
 import { readCheckpoints, writeCheckpoint } from '../../src/lib/server/audit-checkpoint';
 import { rootActor, unique } from '../support/factories';
+import { testAction } from '../support/audit-action';
 
 /** The owner's connection: the role that runs migrations (and the one an insider with its password would use). */
 const ownerUrl = () => inject('ownerDatabaseUrl');
@@ -25,7 +26,7 @@ function verifyCli() {
 }
 
 async function event(tag: string, extra: Partial<audit.AuditInput> = {}) {
-	await transaction((tx) => audit.record(tx, rootActor, { action: `test.${tag}`, entity: 'test', after: { tag }, reason: 'tamper scenario', ...extra }));
+	await transaction((tx) => audit.record(tx, rootActor, { action: testAction(`test.${tag}`), entity: 'test', after: { tag }, reason: 'tamper scenario', ...extra }));
 }
 
 /** Runs a destructive scenario on the real table and puts every row back afterwards, byte for byte. */

@@ -403,7 +403,7 @@ export async function get(id: number, tx?: Transaction): Promise<AlertView> {
 
 // ---------- handling ----------
 
-async function step(actor: Actor, id: number, note: string, from: AlertState, to: AlertState) {
+async function step(actor: Actor, id: number, note: string, from: AlertState, to: Exclude<AlertState, 'open'>) {
 	requireProcurement(actor);
 	const { note: text } = noteSchema.parse({ note });
 	return transaction(async (tx) => {

@@ -4,6 +4,9 @@ import { Op, QueryTypes, type Transaction, type WhereOptions } from 'sequelize';
 import { auditKey } from '../audit-key';
 import { models, runBeforeCommit, sequelize } from '../db';
 import type { Actor } from './actor';
+import type { AuditAction } from './audit-actions';
+
+export { AUDIT_ACTIONS, type AuditAction } from './audit-actions';
 import { cleanText } from './errors';
 
 export const GENESIS_HASH = '0'.repeat(64);
@@ -11,7 +14,8 @@ export const GENESIS_HASH = '0'.repeat(64);
 const CHAIN_LOCK = 7_401_001;
 
 export interface AuditInput {
-	action: string;
+	/** One of AUDIT_ACTIONS (audit-actions.ts). */
+	action: AuditAction;
 	entity: string;
 	entityId?: string | number | null;
 	before?: unknown;
