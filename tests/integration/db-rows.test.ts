@@ -6,6 +6,7 @@ import { models, sequelize, transaction } from '../../src/lib/server/db';
 import * as audit from '../../src/lib/server/services/audit';
 import { rootActor } from '../support/factories';
 import { col, rows, select, selectOne, z } from '../../src/lib/server/db/rows';
+import { testAction } from '../support/audit-action';
 
 describe('pg type parsers (int8, numeric)', () => {
 	it('returns count(*), sums, bigint ids, int8[] and numeric as JavaScript numbers', async () => {
@@ -25,7 +26,7 @@ describe('pg type parsers (int8, numeric)', () => {
 	});
 
 	it('gives model attributes declared BIGINT (spectra.id, audit_events.id) as numbers', async () => {
-		await transaction((tx) => audit.record(tx, rootActor, { action: 'test.int8-model', entity: 'test', reason: 'bigint id read through the model' }));
+		await transaction((tx) => audit.record(tx, rootActor, { action: testAction('test.int8-model'), entity: 'test', reason: 'bigint id read through the model' }));
 		const event = await models().AuditEvent.findOne({ where: { action: 'test.int8-model' }, order: [['id', 'DESC']] });
 		expect(event).not.toBeNull();
 		expect(typeof event!.id).toBe('number');
